@@ -41,6 +41,13 @@ class StaleRevisionError(StoreError):
     """An edit was based on an older version than the one stored; nothing was changed."""
 
 
+class StorageUnavailableError(StoreError):
+    """The database file cannot be written just now (disk full, read-only, locked too long).
+
+    Nothing was committed; the caller may retry later.
+    """
+
+
 class NotFoundError(StoreError):
     """A study, round, judge or item that does not exist was asked for."""
 

@@ -34,7 +34,7 @@ from typing import Any, Iterator
 import pandas as pd
 
 from labelstudy.errors import (NotFoundError, SchemaTooNewError, StaleRevisionError, StateError,
-                               StoreError)
+                               StorageUnavailableError, StoreError)
 
 DB_NAME = "labelstudy.sqlite"
 TASK_KINDS = ("open_sort", "label_match", "relevance", "essentiality", "definition_fit", "naming")
@@ -128,19 +128,29 @@ class Store:
         try:
             conn.execute("BEGIN IMMEDIATE")
         except sqlite3.OperationalError as exc:
-            raise StoreError(f"the database cannot be written just now ({exc})") from None
+            raise StorageUnavailableError(f"the database cannot be written just now ({exc})") from None
         try:
             yield conn
+        except sqlite3.OperationalError as exc:   # disk full, read-only file, I/O error
+            self._rollback(conn)
+            raise StorageUnavailableError(f"the change could not be saved ({exc}); nothing was changed") from None
         except BaseException:
-            conn.execute("ROLLBACK")
+            self._rollback(conn)
             raise
         else:
             try:
                 conn.execute("COMMIT")
             except sqlite3.Error as exc:
-                if conn.in_transaction:
-                    conn.execute("ROLLBACK")
-                raise StoreError(f"the change could not be saved ({exc})") from None
+                self._rollback(conn)
+                raise StorageUnavailableError(f"the change could not be saved ({exc}); nothing was changed") from None
+
+    @staticmethod
+    def _rollback(conn: sqlite3.Connection) -> None:
+        try:
+            if conn.in_transaction:
+                conn.execute("ROLLBACK")
+        except sqlite3.Error:
+            pass
 
     def _rows(self, sql: str, params: tuple | dict = ()) -> list[dict]:
         return [dict(r) for r in self.connect().execute(sql, params).fetchall()]
