@@ -165,6 +165,9 @@ def _counts(codes: np.ndarray, k: int) -> np.ndarray:
 def critical_count(n: int, *, p0: float = 0.5, alpha: float = 0.05) -> int | None:
     """Smallest count c with P(X >= c | n, p0) < alpha (exact one-sided binomial); None when none exists.
 
+    The critical number of judges placing an item on its intended factor for a significant csv
+    (Anderson & Gerbing 1991; p0 = 1/k as in Howard & Melloy 2016).
+
     >>> critical_count(10), critical_count(20), critical_count(30)
     (9, 15, 20)
     """
