@@ -515,11 +515,35 @@ class Store:
 
     def invite_existing(self, judge_id: int, round_id: int) -> dict:
         """Invite an existing judge of the study to another round (a new personal link)."""
-        token = secrets.token_urlsafe(TOKEN_BYTES)
-        with self.write() as c:
-            c.execute("INSERT OR IGNORE INTO invitation(judge_id, round_id, token, token_hash, created_at) "
-                      "VALUES (?,?,?,?,?)", (judge_id, round_id, token, token_digest(token), now()))
+        self.carry_over_panel(round_id, judge_ids=[judge_id])
         return self.invitation_for(judge_id, round_id)
+
+    def carry_over_panel(self, round_id: int, *, from_round_id: int | None = None,
+                         judge_ids: list[int] | None = None) -> int:
+        """Invite to ``round_id`` the judges of an earlier round of the same study (or the given judges),
+        each with a new personal link, in one transaction. Judges already invited are skipped; revoked
+        judges of the earlier round are not carried over. Returns how many were invited."""
+        rnd = self.get_round(round_id)
+        with self.write() as c:
+            if from_round_id is not None:
+                src = c.execute("SELECT study_id FROM round WHERE id = ?", (from_round_id,)).fetchone()
+                if src is None or src["study_id"] != rnd["study_id"]:
+                    raise NotFoundError(f"round {from_round_id} is not a round of this study")
+                judge_ids = [r[0] for r in c.execute(
+                    "SELECT judge_id FROM invitation WHERE round_id = ? AND status = 'active' ORDER BY id",
+                    (from_round_id,))]
+            added = 0
+            for jid in judge_ids or []:
+                owner = c.execute("SELECT study_id FROM judge WHERE id = ?", (jid,)).fetchone()
+                if owner is None or owner["study_id"] != rnd["study_id"]:
+                    raise NotFoundError(f"judge {jid} is not on this study's panel")
+                token = secrets.token_urlsafe(TOKEN_BYTES)
+                added += c.execute(
+                    "INSERT OR IGNORE INTO invitation(judge_id, round_id, token, token_hash, created_at) "
+                    "VALUES (?,?,?,?,?)", (jid, round_id, token, token_digest(token), now())).rowcount
+            self._event(c, "panel_carried_over", study_id=rnd["study_id"], round_id=round_id,
+                        from_round=from_round_id, invited=added)
+        return added
 
     _INV = ("SELECT i.id AS invitation_id, i.judge_id, i.round_id, i.token, i.status, i.created_at, "
             "i.consented_at, i.submitted_at, i.last_activity_at, i.revoked_at, j.display_name, j.email, "

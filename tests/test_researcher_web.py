@@ -423,3 +423,16 @@ def test_cli_links_json(app, web_store, study_id):
         ("Ada", "ada@example.org", "not started", 1), ("Ben", "", "revoked", 1)]
     assert rows[0]["link"] == f"https://orchard.example.test/j/{ada['token']}"
     assert {r["study_id"] for r in rows} == {study_id}
+
+
+def test_carry_over_the_panel_to_a_second_round(researcher, study_id, web_store):
+    r1 = make_round(web_store, study_id)
+    researcher.post(f"/r/rounds/{r1}/judges", {"judges": "Ada\nBen\nCara"}, page=f"/r/rounds/{r1}")
+    r2 = web_store.create_round(study_id, tasks=[("label_match", {})], seed=11)
+    page = text(researcher.client.get(f"/r/rounds/{r2}"))
+    assert "Invite the panel of an earlier round" in page
+    resp = researcher.post(f"/r/rounds/{r2}/judges/carry-over", {"from_round": str(r1)}, page=f"/r/rounds/{r2}")
+    assert resp.status_code == 302
+    assert [i["display_name"] for i in web_store.invitations(r2)] == ["Ada", "Ben", "Cara"]
+    bad = researcher.post(f"/r/rounds/{r2}/judges/carry-over", {"from_round": "x"}, page=f"/r/rounds/{r2}")
+    assert bad.status_code == 400 and "Choose the earlier round" in text(bad)

@@ -208,3 +208,21 @@ def test_backup_restores_every_answer(project, tmp_path):
     restored = Store(out, create=False)
     assert restored.answers(rid).equals(store.answers(rid))
     assert restored.integrity_check() == "ok"
+
+
+def test_carry_over_panel_to_a_new_round(store):
+    sid, r1 = make_round(store)
+    a = store.add_judge(r1, "A")["judge_id"]
+    b = store.add_judge(r1, "B")["judge_id"]
+    store.add_judge(r1, "C")
+    store.revoke(b, r1)
+    r2 = store.create_round(sid, tasks=[("label_match", {})], seed=3)
+    assert store.carry_over_panel(r2, from_round_id=r1) == 2          # A and C; B was revoked
+    assert store.carry_over_panel(r2, from_round_id=r1) == 0          # already invited: skipped
+    tokens = {i["judge_id"]: i["token"] for i in store.invitations(r2)}
+    assert a in tokens and b not in tokens
+    assert tokens[a] != store.invitation_for(a, r1)["token"]          # a new personal link
+    other = store.create_study("Other", small_solution())
+    r3 = store.create_round(other, tasks=[("label_match", {})])
+    with pytest.raises(NotFoundError):
+        store.carry_over_panel(r3, from_round_id=r1)

@@ -308,7 +308,9 @@ def _round_page(rid: int, *, error: str | None = None, judges_text: str = "", st
     else:
         plan = ("With fewer than two judges no agreement can be estimated; add judges to see what this "
                 "panel can and cannot establish.",)
+    earlier = [r for r in store.list_rounds(rnd["study_id"]) if r["number"] < rnd["number"]]
     return render_template("researcher/round.html", rnd=rnd, study=study_row, tasks=tasks, judges=judges,
+                           earlier_rounds=earlier,
                            n_active=active, plan=plan, error=error, judges_text=judges_text,
                            n_items=len(solution.items), n_factors=len(solution.factors)), status
 
@@ -330,6 +332,22 @@ def add_judges(rid: int):
     except (FormInputError, StoreError) as exc:
         return _round_page(rid, error=f"No judges were added: {exc}.", judges_text=text, status=400)
     flash(f"{len(added)} judge{'s' if len(added) != 1 else ''} added; each has a personal link below.", "info")
+    return redirect(url_for("researcher.round_page", rid=rid) + "#judges")
+
+
+@bp.post("/rounds/<int:rid>/judges/carry-over")
+def carry_over(rid: int):
+    """Invite the panel of an earlier round of the same study to this round (new links for everyone)."""
+    store = get_store()
+    _round_or_404(rid)
+    try:
+        source = int(request.form.get("from_round", ""))
+        added = store.carry_over_panel(rid, from_round_id=source)
+    except ValueError:
+        return _round_page(rid, error="Choose the earlier round whose judges should be invited.", status=400)
+    except StoreError as exc:
+        return _round_page(rid, error=f"No judges were invited: {exc}.", status=400)
+    flash(f"{added} judge{'s' if added != 1 else ''} from the earlier round invited with new links.", "info")
     return redirect(url_for("researcher.round_page", rid=rid) + "#judges")
 
 
