@@ -87,21 +87,6 @@ def csrf_from(html: str) -> str:
 
 def make_app(path: Path, **config):
     """The real app for ``path`` with TESTING on (CSRF stays on unless a test turns it off)."""
-    import importlib.util
-    import sys
-    import types
-
-    if "labelstudy.web.results" not in sys.modules and \
-            importlib.util.find_spec("labelstudy.web.results") is None:  # pragma: no cover - until it lands
-        # create_app imports the results blueprint; while that module is still being written, stand in
-        # an empty blueprint so the judge pages can be tested on their own.
-        import flask
-
-        import labelstudy.web as web
-        stub = types.ModuleType("labelstudy.web.results")
-        stub.bp = flask.Blueprint("results", "labelstudy.web.results")
-        sys.modules["labelstudy.web.results"] = stub
-        web.results = stub
     from labelstudy.web import create_app
 
     return create_app(path, {"TESTING": True, **config})

@@ -13,7 +13,7 @@ from typing import Any
 from flask import Flask, g, jsonify, render_template, request
 from flask_wtf.csrf import CSRFError, CSRFProtect
 
-from labelstudy.errors import LabelstudyError
+from labelstudy.errors import LabelstudyError, StorageUnavailableError
 from labelstudy.project import Project, open_project
 
 csrf = CSRFProtect()
@@ -22,6 +22,7 @@ CSP = ("default-src 'self'; script-src 'self'; style-src 'self'; img-src 'self' 
        "font-src 'self'; connect-src 'self'; form-action 'self'; frame-ancestors 'none'; "
        "base-uri 'none'; object-src 'none'")
 MAX_UPLOAD = 5 * 1024 * 1024
+NOT_SAVED_RETRYING = "Not saved: the server cannot write just now; retrying"
 
 
 def template_folder() -> Path:
@@ -64,18 +65,12 @@ def create_app(project_dir: str | os.PathLike | None = None, test_config: dict[s
     app.extensions["labelstudy_store"] = project.store()
     csrf.init_app(app)
 
-    from labelstudy.web import auth, judge, researcher
+    from labelstudy.web import auth, judge, researcher, results
     app.register_blueprint(auth.bp)
     app.register_blueprint(researcher.bp)
+    app.register_blueprint(results.bp)
     app.register_blueprint(judge.bp)
-    csrf.exempt(judge.bp)
-    try:
-        from labelstudy.web import results
-    except ImportError as exc:  # pragma: no cover - only while the results part is being written
-        if "labelstudy.web.results" not in str(exc) and "name 'results'" not in str(exc):
-            raise
-    else:
-        app.register_blueprint(results.bp)   # judge forms carry a link-bound token checked by the judge blueprint itself
+    csrf.exempt(judge.bp)   # judge forms carry a link-bound token, checked by the judge blueprint itself
 
     @app.before_request
     def _secure_cookie_over_https():
@@ -107,6 +102,17 @@ def create_app(project_dir: str | os.PathLike | None = None, test_config: dict[s
         if _wants_json():
             return jsonify(ok=False, error=str(err)), 400
         return render_template("errors/message.html", title="That did not work", message=str(err)), 400
+
+    @app.errorhandler(StorageUnavailableError)
+    def _storage(err):
+        # Disk full, read-only or locked database: nothing was committed, so nothing is acknowledged.
+        # 503 tells the judge's script to keep its local copy and retry.
+        if _wants_json():
+            return jsonify(ok=False, error=NOT_SAVED_RETRYING), 503, {"Retry-After": "5"}
+        return render_template("errors/message.html", title="Not saved", message=(
+            "The server cannot write to the project database just now (the disk may be full or the file "
+            "read-only), so nothing was changed. Go back and try again in a moment; if it keeps happening, "
+            "free disk space or check the file's permissions.")), 503, {"Retry-After": "5"}
 
     @app.errorhandler(404)
     def _404(err):
