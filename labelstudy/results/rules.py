@@ -9,10 +9,16 @@ Verdict logic (printed with the rules in every report):
 
 Items
     *drop* when the hit ratio is below ``drop_hit_below`` **and** the I-CVI is below its standard (both
-    must be measured); *revise* when any one check fails (hit ratio below ``item_hit_min``, csv not
-    significant at ``csv_alpha``, I-CVI below its standard, CVR below its exact critical value, the
-    definition-fit verdict is not "fits intended") or the solution flags the item with one of
-    ``revise_solution_flags``; *keep* otherwise. Checks whose task was not part of the round are skipped.
+    must be measured); *revise* when any required check fails or the solution flags the item with one of
+    ``revise_solution_flags``; *keep* otherwise. Required checks: the placement check named by
+    ``placement_criterion`` (hit ratio at least ``item_hit_min``, csv significant at ``csv_alpha``, or
+    both), the content-validity check named by ``relevance_criterion`` (I-CVI at its standard, CVR at its
+    exact critical value, or both), and definition fit (a better fit to another definition always
+    revises; "unclear" only when ``deffit_unclear_revises``). Checks that are measured but not required
+    are printed beside the verdict ("noted: ..."), so nothing is hidden. Checks whose task was not part
+    of the round are skipped. Why not every check at once: with ten judges the exact tests need nine of
+    ten agreeing, so requiring all of them marks nearly every item for revision; which evidence is
+    decisive is the researcher's documented choice.
 Labels
     *overlapping with X* when the symmetric confusion rate with X is at least ``overlap_confusion_min``;
     *ambiguous* when the hit rate is below ``label_hit_min``, the normalised entropy of its placements is
@@ -42,9 +48,10 @@ SOLUTION_FLAGS = ("cross_loading", "no_salient", "negative", "reverse_keyed")
 
 VERDICT_LOGIC = (
     "Item drop: hit ratio below drop_hit_below and I-CVI below its standard (both measured).",
-    "Item revise: any one check failed (hit ratio, csv test, I-CVI, CVR, definition fit) or the factor "
-    "solution flags the item with one of revise_solution_flags.",
-    "Item keep: every check that was measured passed.",
+    "Item revise: a required check failed (the placement check of placement_criterion, the "
+    "content-validity check of relevance_criterion, definition fit) or the factor solution flags the item "
+    "with one of revise_solution_flags. Measured checks that are not required are noted beside the verdict.",
+    "Item keep: every required check that was measured passed.",
     "Label overlapping with X: symmetric confusion rate with X at or above overlap_confusion_min.",
     "Label ambiguous: hit rate below label_hit_min, entropy above label_entropy_max, or mean clarity of "
     "the chosen name below clarity_min.",
@@ -61,7 +68,10 @@ _SPEC: dict[str, tuple[str, float, float]] = {
     "clarity_min": ("num", 1, 5), "deffit_alpha": ("prob", 1e-6, 0.5), "prevalence_gap": ("prob", 0, 2),
     "revise_solution_flags": ("flags", 0, 0), "judge_outlier_z": ("num", 0.5, 10),
     "alpha_n_boot": ("int", 0, 20000), "ci_level": ("prob", 0.5, 0.999),
+    "placement_criterion": ("choice", 0, 0), "relevance_criterion": ("choice", 0, 0),
+    "deffit_unclear_revises": ("bool", 0, 0),
 }
+_CHOICES = {"placement_criterion": ("hit_ratio", "csv", "both"), "relevance_criterion": ("icvi", "cvr", "both")}
 
 
 class RulesError(LabelstudyError):
@@ -112,6 +122,14 @@ def _check_value(key: str, value: Any, where: str) -> Any:
             raise RulesError(f"{where}: rule {key!r} names unknown flag(s) {', '.join(bad)} "
                              f"(known: {', '.join(SOLUTION_FLAGS)})")
         return tuple(value)
+    if kind == "choice":
+        if value not in _CHOICES[key]:
+            raise RulesError(f"{where}: rule {key!r} must be one of {', '.join(_CHOICES[key])}, not {value!r}")
+        return value
+    if kind == "bool":
+        if not isinstance(value, bool):
+            raise RulesError(f"{where}: rule {key!r} must be true or false, not {value!r}")
+        return value
     if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
         raise RulesError(f"{where}: rule {key!r} must be a number, not {value!r}")
     if kind == "int":

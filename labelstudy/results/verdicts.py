@@ -25,32 +25,40 @@ def _finite(x: Any) -> bool:
 
 
 def item_verdict(row: dict, rules) -> tuple[str, str]:
-    """(verdict, rule in words) for one item row of the items table."""
-    failed: list[str] = []
+    """(verdict, rule in words) for one item row of the items table (logic: :mod:`labelstudy.results.rules`)."""
+    failed: list[str] = []      # required checks that failed
+    noted: list[str] = []       # measured checks that failed but are not required
+    placement, relevance = rules["placement_criterion"], rules["relevance_criterion"]
+
+    def check(failing: bool, words: str, required: bool) -> None:
+        if failing:
+            (failed if required else noted).append(words)
+
     hit = _num(row.get("hit_ratio"))
-    if _finite(hit) and hit < rules["item_hit_min"]:
-        failed.append(f"hit ratio {hit:.2f} < {rules['item_hit_min']:.2f}")
-    if row.get("csv_significant") is False:
-        failed.append(f"csv {_num(row.get('csv')):.2f} not significant (p = {_num(row.get('csv_p')):.3f} "
-                      f">= {rules['csv_alpha']:g})")
+    check(_finite(hit) and hit < rules["item_hit_min"], f"hit ratio {hit:.2f} < {rules['item_hit_min']:.2f}",
+          placement in ("hit_ratio", "both"))
+    check(row.get("csv_significant") is False,
+          f"csv {_num(row.get('csv')):.2f} not significant (p = {_num(row.get('csv_p')):.3f} >= "
+          f"{rules['csv_alpha']:g})", placement in ("csv", "both"))
     icvi, std = _num(row.get("i_cvi")), _num(row.get("icvi_standard"))
     icvi_low = _finite(icvi) and _finite(std) and icvi < std - 1e-12
-    if icvi_low:
-        failed.append(f"I-CVI {icvi:.2f} < {std:.2f}")
-    if row.get("cvr_meets") is False:
-        failed.append(f"CVR {_num(row.get('cvr')):.2f} below its critical value {_num(row.get('cvr_critical')):.2f}")
+    check(icvi_low, f"I-CVI {icvi:.2f} < {std:.2f}", relevance in ("icvi", "both"))
+    check(row.get("cvr_meets") is False,
+          f"CVR {_num(row.get('cvr')):.2f} below its critical value {_num(row.get('cvr_critical')):.2f}",
+          relevance in ("cvr", "both"))
     fit = row.get("deffit_verdict")
     if fit and fit != "fits intended":
-        failed.append(f"definition fit: {fit}")
+        check(True, f"definition fit: {fit}", fit != "unclear" or rules["deffit_unclear_revises"])
     flags = [f for f in (row.get("flags") or "").split(", ") if f in rules["revise_solution_flags"]]
     if flags:
         failed.append("solution flag " + ", ".join(flags))
+    note = f"; noted: {'; '.join(noted)}" if noted else ""
     if _finite(hit) and hit < rules["drop_hit_below"] and icvi_low:
         return "drop", (f"hit ratio {hit:.2f} < {rules['drop_hit_below']:.2f} and I-CVI {icvi:.2f} < "
-                        f"{std:.2f}")
+                        f"{std:.2f}" + note)
     if failed:
-        return "revise", "; ".join(failed)
-    return "keep", "every measured check passed"
+        return "revise", "; ".join(failed) + note
+    return "keep", "every required check passed" + note
 
 
 def label_verdict(row: dict, rules, names: dict[str, str]) -> tuple[str, str]:
