@@ -98,12 +98,38 @@ def read_delimited(data: bytes, file: str, *, preferred: str | None = None) -> t
     return table, [note] if note else []
 
 
+MAX_UNZIPPED_BYTES = 50 * 2**20   # an EFA solution workbook unpacks to well under 1 MB
+MAX_ZIP_MEMBERS = 1_000
+
+
+def _check_archive(data: bytes, file: str) -> None:
+    """Refuse archives that would unpack to more than MAX_UNZIPPED_BYTES (a "zip bomb") before reading them.
+
+    The sizes are the ones the archive declares; Python's zipfile never inflates a member past its
+    declared size (and checks its CRC), so the sum bounds what openpyxl can make us decompress.
+    """
+    try:
+        with zipfile.ZipFile(io.BytesIO(data)) as zf:
+            infos = zf.infolist()
+    except (zipfile.BadZipFile, OSError, ValueError, EOFError):
+        raise SolutionImportError("this .xlsx workbook is damaged (its zip archive cannot be read)",
+                                  file=file) from None
+    if len(infos) > MAX_ZIP_MEMBERS:
+        raise SolutionImportError(f"this .xlsx archive holds {len(infos)} files; a workbook has far fewer, "
+                                  "so it was not opened", file=file)
+    total = sum(max(i.file_size, 0) for i in infos)
+    if total > MAX_UNZIPPED_BYTES:
+        raise SolutionImportError(f"this .xlsx workbook would unpack to {total // 2**20} MB (the limit is "
+                                  f"{MAX_UNZIPPED_BYTES // 2**20} MB), so it was not opened", file=file)
+
+
 def _open_workbook(data: bytes, file: str):
     import openpyxl
 
     if not zipfile.is_zipfile(io.BytesIO(data)):
         raise SolutionImportError("this is not a valid .xlsx workbook (not a zip archive); save the file "
                                   "from your spreadsheet program as Excel Workbook (.xlsx)", file=file)
+    _check_archive(data, file)
     try:
         return openpyxl.load_workbook(io.BytesIO(data), read_only=True, data_only=True)
     except Exception as e:  # openpyxl raises many types on damaged archives; each means the same here

@@ -7,6 +7,7 @@ Views only parse requests, call the store, :mod:`labelstudy.tasks`, :mod:`labels
 from __future__ import annotations
 
 import os
+import re
 from pathlib import Path
 from typing import Any
 
@@ -102,6 +103,12 @@ def create_app(project_dir: str | os.PathLike | None = None, test_config: dict[s
         if _wants_json():
             return jsonify(ok=False, error=str(err)), 400
         return render_template("errors/message.html", title="That did not work", message=str(err)), 400
+
+    def _log_exception(exc_info):
+        # Flask's default names the request path, and a judge's path holds the link token (a credential).
+        path = re.sub(r"^/j/[^/]+", "/j/<link>", request.path)
+        app.logger.error("Exception on %s [%s]", path, request.method, exc_info=exc_info)
+    app.log_exception = _log_exception
 
     @app.errorhandler(StorageUnavailableError)
     def _storage(err):

@@ -18,6 +18,7 @@ from __future__ import annotations
 import datetime as _dt
 import hashlib
 import hmac
+import json
 import math
 import threading
 from dataclasses import dataclass
@@ -510,6 +511,10 @@ def _body() -> dict:
             raise FormInputError("the request body is not valid JSON")
         if not isinstance(data, dict):
             raise FormInputError("the request body must be a JSON object")
+        try:   # JSON escapes can carry lone surrogates, which no database text can hold
+            json.dumps(data, ensure_ascii=False).encode("utf-8")
+        except (UnicodeEncodeError, ValueError, RecursionError):
+            raise FormInputError("the request holds text that is not valid Unicode; nothing was saved") from None
         return data
     return request.form.to_dict()
 
