@@ -19,6 +19,7 @@ request changes nothing) and an older or conflicting revision is refused, never 
 from __future__ import annotations
 
 import datetime as _dt
+import functools
 import hashlib
 import hmac
 import json
@@ -48,6 +49,28 @@ def now() -> str:
 
 def token_digest(token: str) -> str:
     return hashlib.sha256(token.encode("utf-8", "surrogatepass")).hexdigest()
+
+
+_WRITE_LOCKS: dict[str, threading.RLock] = {}
+_WRITE_LOCKS_GUARD = threading.Lock()
+
+
+def _write_lock(path: Path):
+    """One lock per database file for the writers of this process.
+
+    Threads of one server queue here and are woken the moment the previous commit ends, instead of in
+    SQLite's busy handler, which polls with sleeps of up to 100 ms. Other processes still meet SQLite's
+    own locking (``busy_timeout``), so correctness never depends on this lock.
+    """
+    key = str(path.resolve())
+    with _WRITE_LOCKS_GUARD:
+        return _WRITE_LOCKS.setdefault(key, threading.RLock())
+
+
+@functools.lru_cache(maxsize=64)
+def _parse_snapshot(text: str) -> dict:
+    """Parsed round snapshot, cached by its text (a snapshot never changes once the round is open)."""
+    return json.loads(text)
 
 
 def _migrations() -> list[tuple[int, str, str]]:
@@ -93,6 +116,7 @@ class Store:
         if not create and not self.path.exists():
             raise StoreError(f"no project database at {self.path}")
         self._local = threading.local()
+        self._lock = _write_lock(self.path)
         self.migrate()
 
     # ------------------------------------------------------------------ connections and transactions
@@ -125,6 +149,10 @@ class Store:
     def write(self) -> Iterator[sqlite3.Connection]:
         """One ``BEGIN IMMEDIATE`` transaction: committed whole on success, rolled back on any error."""
         conn = self.connect()
+        with self._lock:
+            yield from self._transaction(conn)
+
+    def _transaction(self, conn: sqlite3.Connection) -> Iterator[sqlite3.Connection]:
         try:
             conn.execute("BEGIN IMMEDIATE")
         except sqlite3.OperationalError as exc:
@@ -386,7 +414,7 @@ class Store:
         row = self._one("SELECT * FROM round WHERE id = ?", (round_id,))
         if row is None:
             raise NotFoundError(f"there is no round {round_id}")
-        row["snapshot"] = json.loads(row["snapshot_json"]) if row["snapshot_json"] else None
+        row["snapshot"] = _parse_snapshot(row["snapshot_json"]) if row["snapshot_json"] else None
         return row
 
     def round_by_number(self, study_id: int, number: int) -> dict:

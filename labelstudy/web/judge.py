@@ -144,20 +144,6 @@ def _round_views(store, rnd: dict, judge_id: int) -> tuple[Any, tuple]:
     return solution, views
 
 
-_SAVE_LOCKS: dict = {}
-
-
-def _save_lock(store) -> threading.Lock:
-    """One lock per database for the JSON saves of this process.
-
-    Saves queue here (woken at once when the previous one commits) instead of in SQLite's busy handler,
-    which polls with sleeps of up to 100 ms and made the slowest saves under load wait for seconds.
-    """
-    key = str(store.path)
-    with _views_lock:
-        return _SAVE_LOCKS.setdefault(key, threading.Lock())
-
-
 def load_context(token: str) -> JudgeContext:
     """Resolve a link token, raising ``_Refused`` for unknown/closed (same outcome) or revoked links."""
     store = get_store()
@@ -572,9 +558,8 @@ def save(token: str):
             comment = stored["comment"] if stored else ""
         value, comment = T.check_answer(view, item, value, comment)
         store = get_store()
-        with _save_lock(store):
-            outcome = store.save_answer(ctx.judge_id, ctx.round_id, task_id, item, value, comment,
-                                        revision=revision, seconds=seconds)
+        outcome = store.save_answer(ctx.judge_id, ctx.round_id, task_id, item, value, comment,
+                                    revision=revision, seconds=seconds)
     except StorageUnavailableError:   # nothing committed: 503 so the page keeps its copy and retries
         return _json_error(NOT_SAVED_RETRYING, 503)
     except StateError as exc:
