@@ -217,6 +217,7 @@ def test_json_save_saved_unchanged_stale_conflict(client, built):
     r = save(client, built.token, csrf, task_id=view.task_id, item=unit.key, value=a, comment="", revision=1)
     assert r.status_code == 409
     assert r.json["status"] == "stale" and r.json["value"] == b_ and r.json["revision"] == 2
+    assert "changed on another device" in r.json["error"] and "nothing was overwritten" in r.json["error"]
     r = save(client, built.token, csrf, task_id=view.task_id, item=unit.key, value=a, comment="", revision=2)
     assert r.status_code == 409
     assert r.json["status"] == "conflict" and r.json["value"] == b_

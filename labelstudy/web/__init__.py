@@ -143,10 +143,11 @@ def create_app(project_dir: str | os.PathLike | None = None, test_config: dict[s
     @app.errorhandler(500)
     def _500(err):
         if _wants_json():
-            return jsonify(ok=False, error="Something went wrong on the server; nothing was saved."), 500
+            return jsonify(ok=False, error="Something went wrong on the server; reload the page to see "
+                                           "what was saved."), 500
         return render_template("errors/message.html", title="Something went wrong",
-                               message="The server could not finish this request; nothing was saved. "
-                                       "Please try again."), 500
+                               message="The server could not finish this request. Reload the page to see "
+                                       "what was saved, then try again."), 500
 
     return app
 

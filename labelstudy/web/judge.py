@@ -434,6 +434,10 @@ def task_post(token: str, n: int):
         rows.append((view.task_id, unit.key, value, comment, base + 1, None))
     try:
         outcomes = get_store().save_answers(ctx.judge_id, ctx.round_id, rows) if rows else []
+    except StorageUnavailableError:
+        return _render_task(ctx, n, posted=posted, status=503, message=(
+            "Not saved: the server cannot write just now. Your answers are still on this page; press the "
+            "button again in a moment."))
     except StateError as exc:
         return _render_task(ctx, n, posted=posted, message=f"Nothing was saved: {exc}.", status=403)
     stale = sum(1 for o in outcomes if not o.accepted)
@@ -571,7 +575,10 @@ def save(token: str):
     values = ctx.values()
     values[(task_id, item)] = outcome.value     # the stored value after this save (no second full load)
     answered, required = T.progress(ctx.views, values)
-    return jsonify(ok=outcome.accepted, status=outcome.status, task_id=task_id, item=item,
+    extra = {} if outcome.accepted else {"error": (
+        "This answer was changed on another device or tab in the meantime; the newer answer is shown and "
+        "nothing was overwritten.")}
+    return jsonify(ok=outcome.accepted, status=outcome.status, task_id=task_id, item=item, **extra,
                    revision=outcome.revision, value=outcome.value, comment=outcome.comment,
                    saved_at=outcome.answered_at, progress={"answered": answered, "required": required}), \
         (200 if outcome.accepted else 409)

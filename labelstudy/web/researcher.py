@@ -16,7 +16,7 @@ from flask import (Blueprint, Response, abort, current_app, flash, redirect, ren
                    url_for)
 
 from labelstudy.errors import (FormInputError, LabelstudyError, NotFoundError, SolutionImportError,
-                               StaleRevisionError, StateError, StoreError)
+                               StaleRevisionError, StateError, StorageUnavailableError, StoreError)
 from labelstudy.links import judge_url, qr_svg, status_words
 from labelstudy.tasks import DEFAULT_CONFIG, SHOW_CHOICES, TASK_LABELS, build_view, progress
 from labelstudy.web import get_store
@@ -73,13 +73,7 @@ def _round_or_404(rid: int) -> dict:
 
 
 def _plan_panel():
-    try:
-        from labelstudy.agreement import plan_panel
-    except ImportError:
-        try:
-            from labelstudy.agreement.planning import plan_panel
-        except ImportError:
-            return None
+    from labelstudy.agreement import plan_panel   # imported on first use: the statistics stack is heavy
     return plan_panel
 
 
@@ -93,8 +87,6 @@ def plan_messages(n_judges: int, n_items: int, n_factors: int, seed: int) -> tup
         if key in _plan_cache:
             return _plan_cache[key]
     planner = _plan_panel()
-    if planner is None:
-        return ("Panel planning is not available in this installation.",)
     try:
         plan = planner(n_judges, n_items, n_factors, n_sim=PLAN_SIMULATIONS, seed=seed)
         messages = tuple(str(m) for m in plan.messages)
@@ -220,6 +212,8 @@ def edit_factor(sid: int, fid: str):
     except StaleRevisionError:
         return _study_page(sid, conflict={"kind": "factor", "id": fid, "current": current, "yours": yours},
                            status=409)
+    except StorageUnavailableError:   # nothing written: the app's 503 page says so
+        raise
     except StoreError as exc:
         return _study_page(sid, error={"kind": "factor", "id": fid, "yours": yours, "message": str(exc)},
                            status=400)
@@ -245,6 +239,8 @@ def edit_item(sid: int, iid: str):
     except StaleRevisionError:
         return _study_page(sid, conflict={"kind": "item", "id": iid, "current": current, "yours": yours},
                            status=409)
+    except StorageUnavailableError:   # nothing written: the app's 503 page says so
+        raise
     except StoreError as exc:
         return _study_page(sid, error={"kind": "item", "id": iid, "yours": yours, "message": str(exc)},
                            status=400)
@@ -329,6 +325,8 @@ def add_judges(rid: int):
     try:
         rows = parse_judge_lines(text, existing)
         added = store.add_judges(rid, [(r.display_name, r.email, r.expertise) for r in rows])
+    except StorageUnavailableError:   # nothing written: the app's 503 page says so
+        raise
     except (FormInputError, StoreError) as exc:
         return _round_page(rid, error=f"No judges were added: {exc}.", judges_text=text, status=400)
     flash(f"{len(added)} judge{'s' if len(added) != 1 else ''} added; each has a personal link below.", "info")
@@ -345,6 +343,8 @@ def carry_over(rid: int):
         added = store.carry_over_panel(rid, from_round_id=source)
     except ValueError:
         return _round_page(rid, error="Choose the earlier round whose judges should be invited.", status=400)
+    except StorageUnavailableError:   # nothing written: the app's 503 page says so
+        raise
     except StoreError as exc:
         return _round_page(rid, error=f"No judges were invited: {exc}.", status=400)
     flash(f"{added} judge{'s' if added != 1 else ''} from the earlier round invited with new links.", "info")
