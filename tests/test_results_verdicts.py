@@ -69,3 +69,11 @@ def test_label_verdicts():
 def test_bad_choice_rules_are_refused(values, message):
     with pytest.raises(RulesError, match=message):
         rules_with(**values)
+
+
+def test_an_overlapping_label_also_reports_its_own_ambiguity():
+    verdict, rule = label_verdict({"confusion_rate": 0.3, "most_confused": "F4", "hit_rate": 0.61,
+                                   "mean_clarity": 2.9}, default_rules(), {"F4": "Harvest Sharing"})
+    assert verdict == "overlapping with F4"
+    assert rule == ("symmetric confusion rate with F4 (Harvest Sharing) 0.30 >= 0.25; ambiguous as well: "
+                    "hit rate 0.61 < 0.70; mean clarity 2.90 < 3.00")

@@ -46,5 +46,4 @@ def demo(ctx: click.Context, directory: Path, no_serve: bool, port: int, host: s
         click.echo(f"Serve it later with: labelstudy serve {result.path} --host {host} --port {port}")
         return
     click.echo("")
-    click.echo(f"Serving at {base}/ ; press Ctrl+C to stop.")
     ctx.invoke(serve_cmd, project_dir=result.path, host=host, port=port)

@@ -62,13 +62,11 @@ def item_verdict(row: dict, rules) -> tuple[str, str]:
 
 
 def label_verdict(row: dict, rules, names: dict[str, str]) -> tuple[str, str]:
-    """(verdict, rule in words) for one row of the labels table; ``names`` maps factor id -> name."""
-    rate = _num(row.get("confusion_rate"))
-    other = row.get("most_confused")
-    if other and _finite(rate) and rate >= rules["overlap_confusion_min"]:
-        return (f"overlapping with {other}",
-                f"symmetric confusion rate with {other} ({names.get(other, other)}) {rate:.2f} >= "
-                f"{rules['overlap_confusion_min']:.2f}")
+    """(verdict, rule in words) for one row of the labels table; ``names`` maps factor id -> name.
+
+    An overlapping label is named as such (the stronger finding); when it is also ambiguous on its own
+    the rule text says so too, so no failed check is hidden.
+    """
     reasons = []
     hit = _num(row.get("hit_rate"))
     if _finite(hit) and hit < rules["label_hit_min"]:
@@ -79,6 +77,14 @@ def label_verdict(row: dict, rules, names: dict[str, str]) -> tuple[str, str]:
     clar = _num(row.get("mean_clarity"))
     if _finite(clar) and clar < rules["clarity_min"]:
         reasons.append(f"mean clarity {clar:.2f} < {rules['clarity_min']:.2f}")
+    rate = _num(row.get("confusion_rate"))
+    other = row.get("most_confused")
+    if other and _finite(rate) and rate >= rules["overlap_confusion_min"]:
+        words = (f"symmetric confusion rate with {other} ({names.get(other, other)}) {rate:.2f} >= "
+                 f"{rules['overlap_confusion_min']:.2f}")
+        if reasons:
+            words += "; ambiguous as well: " + "; ".join(reasons)
+        return f"overlapping with {other}", words
     if reasons:
         return "ambiguous", "; ".join(reasons)
     return "clear", "every measured check passed"
