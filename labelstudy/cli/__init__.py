@@ -64,7 +64,8 @@ def serve_cmd(project_dir: Path, host: str, port: int, threads: int, base_url: s
     from labelstudy.web import create_app
     url = (base_url or default_base_url(host, port)).rstrip("/")
     app = create_app(project_dir, {"BASE_URL": url})
-    click.echo(f"Serving {project_dir} at {url}/ (researcher pages at {url}/r/)", err=True)
+    click.echo(f"Serving {project_dir} at {url}/ (researcher pages at {url}/r/); press Ctrl+C to stop.",
+               err=True)
     waitress.serve(app, host=host, port=port, threads=threads, ident="labelstudy",
                    channel_timeout=120, connection_limit=500)
 

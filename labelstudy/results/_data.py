@@ -13,10 +13,10 @@ from typing import Sequence
 import numpy as np
 import pandas as pd
 
-__all__ = ["judge_labels", "wide", "numeric", "tidy_answers", "TIDY_COLUMNS"]
+__all__ = ["judge_labels", "wide", "numeric", "shown_positions", "tidy_answers", "TIDY_COLUMNS"]
 
 TIDY_COLUMNS = ["round", "task", "task_kind", "judge", "expertise", "item", "value", "comment",
-                "answered_at", "revision", "seconds"]
+                "answered_at", "revision", "seconds", "shown_position"]
 
 
 def judge_labels(invitations: list[dict]) -> dict[int, str]:
@@ -57,8 +57,30 @@ def numeric(table: pd.DataFrame, domain: Sequence[str]) -> pd.DataFrame:
     return pd.DataFrame(values, index=table.index, columns=table.columns)
 
 
-def tidy_answers(answers: pd.DataFrame, round_number: int) -> pd.DataFrame:
-    """One row per judge x task x answer key, in the export's column order."""
+def shown_positions(tasks: list[dict], solution, seed: int, judge_ids: Sequence[int]) -> dict:
+    """(judge id, task id, answer key) -> the 1-based place at which that judge was shown the question.
+
+    Recomputed from the round's stored seed with :func:`labelstudy.tasks.build_view`, exactly as the form
+    laid it out, so order effects can be checked from the export.
+    """
+    from labelstudy.tasks import build_view
+
+    out = {}
+    for jid in judge_ids:
+        for t in tasks:
+            for pos, unit in enumerate(build_view(t, solution, seed=seed, judge_id=jid).units, start=1):
+                out[(jid, t["id"], unit.key)] = pos
+    return out
+
+
+def tidy_answers(answers: pd.DataFrame, round_number: int, positions: dict | None = None) -> pd.DataFrame:
+    """One row per judge x task x answer key, in the export's column order.
+
+    ``shown_position`` is where the judge saw the question in its task (see :func:`shown_positions`).
+    """
+    positions = positions or {}
+    shown = [positions.get((int(j), int(t), k)) for j, t, k in
+             zip(answers["judge_id"], answers["task_id"], answers["item"])]
     out = pd.DataFrame({
         "round": round_number,
         "task": answers["task_position"].astype(int) + 1,
@@ -71,5 +93,6 @@ def tidy_answers(answers: pd.DataFrame, round_number: int) -> pd.DataFrame:
         "answered_at": answers["answered_at"],
         "revision": answers["revision"].astype(int),
         "seconds": pd.to_numeric(answers["seconds"], errors="coerce"),
+        "shown_position": pd.array(shown, dtype="Int64"),
     }, columns=TIDY_COLUMNS)
     return out.sort_values(["task", "judge", "item"], kind="mergesort").reset_index(drop=True)

@@ -27,7 +27,7 @@ from labelstudy.agreement.itemsort import hit_ratios
 from labelstudy.agreement.judges import judge_diagnostics
 from labelstudy.errors import LabelstudyError
 from labelstudy.results import _stats
-from labelstudy.results._data import judge_labels, numeric, tidy_answers, wide
+from labelstudy.results._data import judge_labels, numeric, shown_positions, tidy_answers, wide
 from labelstudy.results.rules import Rules, load_rules
 from labelstudy.results.verdicts import item_verdict, label_verdict
 from labelstudy.solution import diagnose
@@ -383,7 +383,8 @@ def _score(store, round_id: int, rules: Rules, invitations: list[dict], key: tup
         "scale": pd.DataFrame(scale_rows, columns=["index", "value", "standard", "meets", "n_items", "source"]),
         "comments": ctab,
         "rules": rules.table(),
-        "answers": tidy_answers(answers, int(rnd["number"])),
+        "answers": tidy_answers(answers, int(rnd["number"]), shown_positions(
+            tasks, solution, seed, sorted({int(j) for j in answers["judge_id"]}))),
     })
     ordered = {k: tables[k] for k in TABLE_ORDER if k in tables}
     meta = {"study_id": int(study["id"]), "study_title": study["title"], "round_id": int(round_id),
