@@ -97,3 +97,11 @@ def test_every_cli_command_is_documented_in_readme():
             for opt in getattr(param, "opts", []):
                 if opt.startswith("--") and opt not in ("--help",):
                     assert opt in readme or opt in (cmd.help or ""), f"{full} {opt} undocumented"
+
+
+def test_every_decision_rule_is_documented_in_readme():
+    import json as _json
+    readme = (ROOT / "README.md").read_text()
+    rules = _json.loads((ROOT / "labelstudy" / "defaults" / "rules.json").read_text())["rules"]
+    for key in rules:
+        assert f"`{key}`" in readme, f"rule {key} is not in README's rules table"
