@@ -460,7 +460,7 @@ class Store:
         return row
 
     def _set_status(self, round_id: int, new: str, allowed_from: tuple[str, ...], stamp: str | None,
-                    snapshot: dict | None = None) -> None:
+                    snapshot: dict | None = None, unlock_submitted: bool = False) -> None:
         with self.write() as c:
             row = c.execute("SELECT status, study_id FROM round WHERE id = ?", (round_id,)).fetchone()
             if row is None:
@@ -473,6 +473,8 @@ class Store:
             if snapshot is not None:
                 c.execute("UPDATE round SET snapshot_json = ? WHERE id = ? AND snapshot_json IS NULL",
                           (json.dumps(snapshot), round_id))
+            if unlock_submitted:
+                c.execute("UPDATE invitation SET submitted_at = NULL WHERE round_id = ?", (round_id,))
             self._event(c, f"round_{new}", study_id=row["study_id"], round_id=round_id,
                         previous=row["status"])
 
@@ -487,9 +489,7 @@ class Store:
 
     def reopen_round(self, round_id: int) -> None:
         """Reopen a closed round; submitted judges are unlocked so they may revise their answers."""
-        self._set_status(round_id, "open", ("closed",), None)
-        with self.write() as c:
-            c.execute("UPDATE invitation SET submitted_at = NULL WHERE round_id = ?", (round_id,))
+        self._set_status(round_id, "open", ("closed",), None, unlock_submitted=True)
 
     def round_solution(self, round_id: int):
         """The solution as judges of this round saw it (the snapshot, or the live one for a draft)."""
