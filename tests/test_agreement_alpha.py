@@ -199,3 +199,18 @@ def test_repr_and_to_dict():
     d = r.to_dict()
     assert json.loads(json.dumps(d))["alpha"] == pytest.approx(0.743421, abs=1e-6)
     assert krippendorff_alpha(K2011).to_dict()["ci_low"] is None
+
+
+# ------------------------------------------------------------------------------ audit regressions
+
+def test_replicate_indices_are_checked():
+    # regression: 1-D indices were silently read as one-item replicates; an out-of-range column escaped as
+    # a numpy reshape ValueError; a negative n_boot as "negative dimensions are not allowed"
+    with pytest.raises(AgreementInputError, match="2-D"):
+        alpha_replicates(K2011, indices=np.arange(12))
+    with pytest.raises(AgreementInputError, match="between 0 and 11"):
+        alpha_replicates(K2011, indices=np.array([[0, 12]]))
+    with pytest.raises(AgreementInputError, match="whole column numbers"):
+        alpha_replicates(K2011, indices=np.array([[0.5, 1.0]]))
+    with pytest.raises(AgreementInputError, match="n_boot"):
+        unit_bootstrap_indices(K2011, -1)

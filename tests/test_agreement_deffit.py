@@ -168,3 +168,16 @@ def test_errors():
         definition_fit(np.ones((3, 2, 2)), key=[0, 5])
     with pytest.raises(AgreementInputError, match="2 definitions"):
         definition_fit(np.ones((3, 2, 1)), key=[0, 0])
+
+
+# ------------------------------------------------------------------------------ audit regressions
+
+def test_rm_anova_wrong_input_raises_agreement_input_error():
+    # regression: a 1-D table escaped as "not enough values to unpack", text as a float ValueError, and a
+    # table with a missing rating quietly gave NaN
+    with pytest.raises(AgreementInputError, match="2-D"):
+        rm_anova([1, 2, 3])
+    with pytest.raises(AgreementInputError, match="number"):
+        rm_anova([["a", "b"], ["c", "d"]])
+    with pytest.raises(AgreementInputError, match="complete"):
+        rm_anova([[1, 2], [np.nan, 3], [2, 3]])

@@ -173,3 +173,12 @@ def test_repr_and_json():
     assert repr(gwet_ac2(K2011)).startswith("GwetAC2(coefficient=")
     assert repr(brennan_prediger(K2011)).startswith("BrennanPrediger(coefficient=0.773")
     assert json.loads(json.dumps(r.to_dict()))["name"] == "AC1"
+
+
+# ------------------------------------------------------------------------------ audit regressions
+
+def test_single_item_says_why_the_standard_error_is_missing():
+    # regression: one item gave se = NaN without a note (Var = sum (c_i - c)^2 / (n (n - 1)) needs n >= 2)
+    r = gwet_ac1([[1], [2], [1]], domain=[1, 2])
+    assert np.isfinite(r.coefficient) and np.isnan(r.se) and "single item" in r.note
+    assert gwet_ac1(K2011).note == ""

@@ -184,3 +184,12 @@ def test_permutation_invariance_and_bounds(design, rnd):
     pd.testing.assert_frame_equal(label_ambiguity(df.loc[judges, items], keyser, domain=DOMAIN), amb)
     hr = hit_ratios(df, keyser, domain=DOMAIN)
     assert hr.n_placements == int(df.notna().to_numpy().sum())
+
+
+# ------------------------------------------------------------------------------ audit regressions
+
+@pytest.mark.parametrize("func", [item_sort, hit_ratios, confusion, label_ambiguity])
+def test_a_table_without_items_raises_a_readable_error(func):
+    # regression: zero columns escaped as numpy/pandas errors (argmax of an empty sequence, ...)
+    with pytest.raises(AgreementInputError, match="no items"):
+        func(np.empty((3, 0), dtype=object), [])

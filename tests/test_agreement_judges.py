@@ -113,3 +113,20 @@ def test_errors():
         judge_diagnostics(seconds=[[1, -2]])
     with pytest.raises(AgreementInputError):
         judge_diagnostics(key=KEY, ratings=[[1, 2]])
+
+
+# ------------------------------------------------------------------------------ audit regressions
+
+def test_all_missing_assignments_give_nan_not_a_crash():
+    # regression: a panel without a single answer used to raise a numpy "zero-size array" ValueError
+    d = judge_diagnostics([[np.nan, np.nan], [np.nan, np.nan], [np.nan, np.nan]])
+    assert d["n_answers"].tolist() == [0, 0, 0] and d["kappa_loo"].isna().all()
+    assert not d["outlier"].any()
+
+
+def test_nominal_kappa_refuses_codes_outside_its_categories():
+    # regression: a code >= k used to escape as a numpy matmul ValueError
+    with pytest.raises(AgreementInputError, match="categories run 0..1"):
+        nominal_kappa([0, 3], [0, 1], 2)
+    with pytest.raises(AgreementInputError, match="equal length"):
+        nominal_kappa([0, 1, 1], [0, 1], 2)

@@ -226,3 +226,16 @@ def test_fleiss_degenerate():
     assert "only one answer" in fleiss_kappa([[1, 2, 3]]).note
     assert "no answers" in fleiss_kappa([[NAN, NAN], [NAN, NAN]]).note
     assert json.dumps(fleiss_kappa(DIAGNOSES).to_dict())
+
+
+# ------------------------------------------------------------------------------ audit regressions
+
+@pytest.mark.parametrize("data", [[[NAN, NAN], [NAN, NAN]], np.zeros((3, 0)), np.zeros((0, 3))])
+def test_pairwise_and_light_without_any_answer_are_nan_not_a_crash(data):
+    # regression: no answers (no categories) used to escape as a numpy reshape ValueError
+    table = pairwise_kappa(data)
+    n_j = np.asarray(data).shape[0]
+    assert table.shape == (n_j, n_j)
+    assert np.isnan(table.to_numpy()[~np.eye(n_j, dtype=bool)]).all()
+    r = light_kappa(data)
+    assert np.isnan(r.kappa) and r.n_pairs == 0 and r.note

@@ -196,3 +196,12 @@ def test_co_occurrence_invariant_to_judge_order_and_pile_names(rows, rnd):
     co = co_occurrence(df).to_numpy()
     ok = co[~np.isnan(co)]
     assert ((ok >= 0) & (ok <= 1)).all() and np.allclose(co, co.T, equal_nan=True)
+
+
+# ------------------------------------------------------------------------------ audit regressions
+
+def test_match_clusters_without_any_cluster_label_is_empty_with_note():
+    # regression: all-missing cluster labels used to escape as a pandas KeyError
+    m = match_clusters([np.nan, None], ["F1", "F2"])
+    assert m.empty and list(m.columns) == ["factor", "overlap", "size", "share", "factor_share"]
+    assert m.attrs["unmatched_factors"] == ["F1", "F2"] and "nothing to match" in m.attrs["note"]

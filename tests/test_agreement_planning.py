@@ -117,3 +117,22 @@ def test_errors():
                          ((5, 10, 3), {"expected_hit_rate": 1.5}), ((5.5, 10, 3), {})]:
         with pytest.raises(AgreementInputError):
             plan_panel(*args, **kwargs)
+
+
+# ------------------------------------------------------------------------------ audit regressions
+
+def test_two_judges_one_factor_runs_without_warnings():
+    # regression: panels whose every bootstrap replicate had no variation made numpy's nanpercentile warn
+    # ("All-NaN slice encountered"), an error under -W error
+    import warnings
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        p = plan_panel(2, 10, 1, n_sim=20, n_boot=20, seed=1)
+    assert p.csv_critical[0] is None and p.cvr_critical == (None, p.cvr_critical[1])
+
+
+def test_one_item_gives_no_interval_width():
+    # regression: with one item every resample is that item, so the simulated "interval" was 0.00 wide
+    p = plan_panel(6, 1, 3, n_sim=10, n_boot=10, seed=1)
+    assert math.isnan(p.expected_alpha_ci_width) and "at least 2 items" in p.note
+    assert not any("wide" in m for m in p.messages)

@@ -180,3 +180,12 @@ def test_band_undefined_and_table():
         assert scale["reference"] and scale["rule"] and scale["rows"]
     with pytest.raises(AgreementInputError, match="unknown band scale"):
         band(0.5, "made_up")
+
+
+# ------------------------------------------------------------------------------ audit regressions
+
+def test_band_of_text_raises_agreement_input_error():
+    # regression: band("x") escaped as float()'s ValueError
+    with pytest.raises(AgreementInputError, match="not a number"):
+        band("high")
+    assert band(None) == "undefined" and band("0.5") == "moderate"

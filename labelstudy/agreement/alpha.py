@@ -155,6 +155,9 @@ def unit_bootstrap_indices(data: Any, n_boot: int, seed: int | None = None) -> n
     >>> unit_bootstrap_indices([[1, 2, 1], [1, None, 2]], 3, seed=1).shape
     (3, 2)
     """
+    if int(n_boot) != n_boot or n_boot < 0:
+        raise AgreementInputError(f"n_boot must be a whole number >= 0; got {n_boot!r}")
+    n_boot = int(n_boot)
     m = as_matrix(data)
     pairable = np.flatnonzero((~np.isnan(m.values)).sum(axis=0) >= 2)
     rng = np.random.default_rng(seed)
@@ -179,7 +182,15 @@ def alpha_replicates(data: Any, level: str = "nominal", *, domain: Sequence | No
     """
     _check_level(level)
     m, dom, counts = _prepare(data, domain, level)
-    indices = np.asarray(indices, dtype=int)
+    indices = np.asarray(indices)
+    if indices.ndim != 2 or (indices.size and not np.issubdtype(indices.dtype, np.integer)):
+        raise AgreementInputError(
+            f"indices must be a 2-D (replicates x items) array of whole column numbers; got shape "
+            f"{indices.shape}")
+    if indices.size and (indices.min() < 0 or indices.max() >= counts.shape[0]):
+        raise AgreementInputError(
+            f"indices must lie between 0 and {counts.shape[0] - 1} (the item columns of data)")
+    indices = indices.astype(int)
     n_boot, n_items, k = indices.shape[0], counts.shape[0], len(dom)
     per_unit = _unit_coincidences(counts)
     flat = (indices + (np.arange(n_boot) * n_items)[:, None]).ravel()

@@ -60,9 +60,14 @@ def band(value: float, scale: str = "landis_koch") -> str:
     """
     if scale not in BANDS:
         raise AgreementInputError(f"unknown band scale {scale!r}; choose one of {', '.join(BANDS)}")
-    if value is None or not math.isfinite(float(value)):
+    if value is None:
         return "undefined"
-    value = float(value)
+    try:
+        value = float(value)
+    except (TypeError, ValueError):
+        raise AgreementInputError(f"band: {value!r} is not a number") from None
+    if not math.isfinite(value):
+        return "undefined"
     for edge, inclusive, word in BANDS[scale]["rows"]:
         if value < edge or (inclusive and value == edge):
             return word

@@ -55,7 +55,15 @@ def rm_anova(y: Any) -> tuple[float, int, int, float]:
     >>> round(F, 3), df1, df2
     (36.0, 2, 6)
     """
-    y = np.asarray(y, dtype=float)
+    try:
+        y = np.asarray(y, dtype=float)
+    except (TypeError, ValueError):
+        raise AgreementInputError("rm_anova: every rating must be a number") from None
+    if y.ndim != 2:
+        raise AgreementInputError(f"rm_anova: expected a 2-D subjects x conditions table, got {y.ndim} "
+                                  "dimension(s)")
+    if np.isnan(y).any():
+        raise AgreementInputError("rm_anova: the table must be complete (drop subjects with a missing rating)")
     n, k = y.shape
     if n < 2 or k < 2:
         return float("nan"), k - 1, (n - 1) * (k - 1), float("nan")

@@ -166,8 +166,10 @@ def _coefficient(data: Any, domain: Sequence | None, weights: str, ci: float, na
     coef_i = (n / n2) * (pa_i - p_e * two) / (1 - p_e)
     if pe_i is not None:
         coef_i = coef_i - 2 * (1 - coef) * (pe_i - p_e) / (1 - p_e)
+    note = ""
     if n < 2:
         se = nan
+        note = f"the standard error of {name} is undefined with a single item"
     else:
         se = float(np.sqrt(((coef_i - coef) ** 2).sum() / (n * (n - 1))))
     if np.isfinite(se) and se > 0:
@@ -181,7 +183,7 @@ def _coefficient(data: Any, domain: Sequence | None, weights: str, ci: float, na
         low = high = p_value = nan
     return ChanceCorrected(coefficient=float(coef), se=se, ci_low=float(low), ci_high=float(high),
                            p_a=p_a, p_e=float(p_e), p_value=p_value, n_items=n, name=name,
-                           weights=weights, ci=ci)
+                           weights=weights, ci=ci, note=note)
 
 
 _SE_TEXT = """

@@ -141,6 +141,8 @@ class _Coded:
 def _coded(assignments: Any, key: Any = None, domain: Sequence | None = None, *,
            name: str = "assignments", need_key: bool = True) -> _Coded:
     table, judges, items = _table(assignments, name)
+    if need_key and not items:
+        raise AgreementInputError(f"{name}: the table has no items (columns); nothing to score")
     keylabs = _resolve_key(key, items) if (need_key or key is not None) else ()
     observed = {v for v in table.ravel() if v is not None}
     dom = _resolve_labels(observed, domain, keylabs, name)

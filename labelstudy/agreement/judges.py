@@ -29,6 +29,12 @@ def nominal_kappa(x: Any, y: Any, k: int) -> float:
     0.5
     """
     x, y = np.asarray(x, dtype=int), np.asarray(y, dtype=int)
+    if x.shape != y.shape or x.ndim != 1:
+        raise AgreementInputError(f"nominal_kappa: two answer vectors of equal length needed, got shapes "
+                                  f"{x.shape} and {y.shape}")
+    if (x >= k).any() or (y >= k).any():
+        raise AgreementInputError(f"nominal_kappa: a code is {max(x.max(), y.max())}, but categories run "
+                                  f"0..{k - 1}")
     ok = (x >= 0) & (y >= 0)
     x, y = x[ok], y[ok]
     if x.size == 0:
@@ -68,6 +74,8 @@ def robust_z(values: Any, *, floor: float = 0.0) -> np.ndarray:
 def _loo_kappa(codes: np.ndarray, k: int) -> np.ndarray:
     """Kappa of each judge against the modal answer of the other judges (ties and empty items left out)."""
     n_j, n_i = codes.shape
+    if k == 0 or n_i == 0:                        # no answers at all: no consensus to compare with
+        return np.full(n_j, np.nan)
     onehot = np.zeros((n_j, n_i, k))
     jj, ii = np.nonzero(codes >= 0)
     onehot[jj, ii, codes[jj, ii]] = 1

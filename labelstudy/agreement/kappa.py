@@ -207,6 +207,11 @@ def pairwise_kappa(data: Any, *, weights: str | None = None, domain: Sequence | 
     dom = resolve_domain(m.values, domain)
     k, n_j = len(dom), m.shape[0]
     w = kappa_weights(k, weights)
+    if k == 0 or m.shape[1] == 0:                 # no answers at all: every pair is undefined
+        out = np.full((n_j, n_j), np.nan)
+        np.fill_diagonal(out, 1.0)
+        return pd.DataFrame(out, index=pd.Index(m.judges, name="judge"),
+                            columns=pd.Index(m.judges, name="judge"))
     x = _one_hot(m.values, dom)                                          # (J, I, K)
     flat = x.transpose(0, 2, 1).reshape(n_j * k, -1)                     # (J*K, I)
     tables = (flat @ flat.T).reshape(n_j, k, n_j, k).transpose(0, 2, 1, 3).reshape(n_j * n_j, k, k)

@@ -330,6 +330,12 @@ def match_clusters(labels: Any, key: Any) -> pd.DataFrame:
         items = tuple(key.index) if isinstance(key, pd.Series) else tuple(range(len(lab)))
     keylabs = _resolve_key(key, items)
     keep = [i for i, v in enumerate(lab) if v is not None]
+    if not keep:
+        res = pd.DataFrame(columns=["factor", "overlap", "size", "share", "factor_share"],
+                           index=pd.Index([], name="cluster"))
+        res.attrs["unmatched_factors"] = list(dict.fromkeys(keylabs))
+        res.attrs["note"] = "no item has a cluster label: nothing to match"
+        return res
     table = pd.crosstab(pd.Series([lab[i] for i in keep], name="cluster"),
                         pd.Series([keylabs[i] for i in keep], name="factor"))
     rows, cols = linear_sum_assignment(-table.to_numpy())

@@ -112,10 +112,13 @@ def _ci_widths(counts: np.ndarray, n_boot: int, rng: np.random.Generator, ci: fl
         flat = (idx + (np.arange(s * n_boot) * n_items).reshape(s, n_boot, 1)).ravel()
         w = np.bincount(flat, minlength=s * n_boot * n_items).reshape(s, n_boot, n_items).astype(float)
         reps = nominal_alpha_counts(part, w)
-        with np.errstate(all="ignore"):
-            lo, hi = np.nanpercentile(reps, [tail, 100 - tail], axis=1) if np.isfinite(reps).any() \
-                else (np.full(s, np.nan), np.full(s, np.nan))
-        out[start:start + s] = hi - lo
+        for p, row in enumerate(reps):          # per panel: a panel whose replicates are all NaN gives NaN
+            fin = row[np.isfinite(row)]
+            if fin.size:
+                lo, hi = np.percentile(fin, [tail, 100 - tail])
+                out[start + p] = hi - lo
+            else:
+                out[start + p] = np.nan
     return out
 
 
@@ -133,7 +136,8 @@ def plan_panel(n_judges: int, n_items: int, n_factors: int, *, expected_hit_rate
     - ``expected_alpha`` and ``expected_alpha_ci_width``: by simulation (our design): judges place each item
       on its intended factor with probability ``expected_hit_rate``, else uniformly on another factor or
       "none"; per simulated panel nominal alpha and its 95% units-bootstrap percentile interval (``n_boot``
-      resamples of items), averaged over ``n_sim`` panels. Seeded with numpy ``default_rng(seed)``.
+      resamples of items), averaged over ``n_sim`` panels. Seeded with numpy ``default_rng(seed)``. With
+      a single item there is nothing to resample: the width is NaN (with a note) and no interval message.
 
     Validated: thresholds against the published check values of each source; the vectorised simulation
     alpha against :func:`~labelstudy.agreement.alpha.krippendorff_alpha` on the same resamples.
@@ -160,8 +164,13 @@ def plan_panel(n_judges: int, n_items: int, n_factors: int, *, expected_hit_rate
     rng = np.random.default_rng(seed)
     counts = simulate_sort_counts(N, int(n_items), int(n_factors), expected_hit_rate, int(n_sim), rng)
     point = nominal_alpha_counts(counts)
-    widths = _ci_widths(counts, int(n_boot), rng)
     notes = []
+    if int(n_items) < 2:
+        # resampling a single item always redraws it: a zero-width "interval" would claim false precision
+        widths = np.full(int(n_sim), np.nan)
+        notes.append("an interval for alpha needs at least 2 items to resample; none is given")
+    else:
+        widths = _ci_widths(counts, int(n_boot), rng)
     with np.errstate(all="ignore"):
         exp_alpha = float(np.nanmean(point)) if np.isfinite(point).any() else float("nan")
         width = float(np.nanmean(widths)) if np.isfinite(widths).any() else float("nan")
