@@ -152,3 +152,16 @@ def test_permuting_judges_or_items_changes_nothing(rows, rnd):
     k = modified_kappa(df)
     assert ((k["i_cvi"].dropna() >= 0) & (k["i_cvi"].dropna() <= 1)).all()
     assert (k["kappa_star"].dropna() <= 1 + 1e-12).all()
+
+
+def test_the_078_standard_is_met_by_seven_of_nine():
+    # Lynn (1986) derives .78 from 7 of 9 agreeing judges; Polit, Beck & Owen (2007, Table) list
+    # N = 9, A = 7 -> I-CVI .78 as meeting the standard [memory for the table layout].
+    from labelstudy.agreement import meets_icvi_standard, plan_panel
+    assert meets_icvi_standard(7 / 9, 0.78)
+    assert not meets_icvi_standard(6 / 8, 0.78)          # .75
+    assert not meets_icvi_standard(5 / 6, 1.0)
+    assert meets_icvi_standard(1.0, 1.0)
+    assert not meets_icvi_standard(float("nan"), 0.78)
+    assert plan_panel(9, 10, 3, n_sim=20, seed=1).min_icvi_agreements == 7
+    assert plan_panel(10, 10, 3, n_sim=20, seed=1).min_icvi_agreements == 8   # 7/10 = .70 fails

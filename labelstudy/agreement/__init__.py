@@ -18,7 +18,8 @@ from labelstudy.agreement.gwet import (ChanceCorrected, PercentAgreement, brenna
 from labelstudy.agreement.kappa import (CohenKappa, FleissKappa, LightKappa, cohen_kappa, fleiss_kappa,
                                         kappa_weights, light_kappa, pairwise_kappa)
 from labelstudy.agreement.cvi import (LAWSHE_1975_MINIMA, ScaleCVI, cvr_critical, icvi_standard, item_cvi,
-                                      kappa_star_band, lawshe_cvr, modified_kappa, scale_cvi)
+                                      kappa_star_band, lawshe_cvr, meets_icvi_standard, modified_kappa,
+                                      scale_cvi)
 from labelstudy.agreement.deffit import DefinitionFit, definition_fit, holm, rm_anova
 from labelstudy.agreement.itemsort import (HitRatios, confusion, critical_count, hit_ratios, item_sort,
                                            label_ambiguity)
@@ -35,7 +36,7 @@ __all__ = [
     "gwet_ac1", "gwet_ac2", "gwet_weights", "percent_agreement", "CohenKappa", "FleissKappa", "LightKappa",
     "cohen_kappa", "fleiss_kappa", "kappa_weights", "light_kappa", "pairwise_kappa",
     "LAWSHE_1975_MINIMA", "ScaleCVI", "cvr_critical", "icvi_standard", "item_cvi", "kappa_star_band",
-    "lawshe_cvr", "modified_kappa", "scale_cvi", "HitRatios", "confusion", "critical_count", "hit_ratios",
+    "lawshe_cvr", "meets_icvi_standard", "modified_kappa", "scale_cvi", "HitRatios", "confusion", "critical_count", "hit_ratios",
     "item_sort", "label_ambiguity", "ConsensusPartition", "adjusted_mutual_info", "adjusted_rand_index",
     "co_occurrence", "consensus_partition", "match_clusters", "partition_agreement", "pile_names",
     "silhouette", "DefinitionFit", "definition_fit", "holm", "rm_anova", "judge_diagnostics",

@@ -20,6 +20,7 @@ from labelstudy.agreement._data import AgreementInputError, as_matrix
 from labelstudy.agreement.itemsort import _ToDict, critical_count
 
 __all__ = ["item_cvi", "scale_cvi", "ScaleCVI", "modified_kappa", "kappa_star_band", "icvi_standard",
+           "meets_icvi_standard",
            "lawshe_cvr", "cvr_critical", "LAWSHE_1975_MINIMA"]
 
 #: Lawshe's (1975) minimum CVR values by panel size, one-tailed p = .05. Shown only as history: they are not
@@ -150,6 +151,23 @@ def icvi_standard(n_judges: int) -> float:
     if int(n_judges) != n_judges or n_judges < 1:
         raise AgreementInputError(f"the number of judges must be a whole number >= 1, got {n_judges}")
     return 1.0 if n_judges <= 5 else 0.78
+
+
+def meets_icvi_standard(i_cvi: float, standard: float) -> bool:
+    """Whether an I-CVI meets its standard, compared at the two decimals the standard is printed with.
+
+    The .78 standard is Lynn's (1986) 7 agreeing judges out of 9 (7/9 = .7778, printed .78; Polit, Beck &
+    Owen 2007 list N = 9, A = 7 with I-CVI .78 as meeting it), so the I-CVI is rounded half up to two
+    decimals before the comparison; compared unrounded, the very panel the standard was derived from would
+    fail it. NaN never meets a standard.
+
+    >>> meets_icvi_standard(7 / 9, 0.78), meets_icvi_standard(0.75, 0.78), meets_icvi_standard(5 / 6, 1.0)
+    (True, False, False)
+    """
+    value = float(i_cvi)
+    if math.isnan(value) or math.isnan(float(standard)):
+        return False
+    return math.floor(value * 100 + 0.5 + 1e-9) / 100 >= float(standard) - 1e-12
 
 
 def cvr_critical(n: int, *, alpha: float = 0.05) -> tuple[int | None, float]:

@@ -10,7 +10,7 @@ from scipy import stats
 
 from labelstudy.agreement._data import AgreementInputError
 from labelstudy.agreement._results import fmt
-from labelstudy.agreement.cvi import cvr_critical, icvi_standard
+from labelstudy.agreement.cvi import cvr_critical, icvi_standard, meets_icvi_standard
 from labelstudy.agreement.itemsort import _ToDict, critical_count
 
 __all__ = ["plan_panel", "PanelPlan", "simulate_sort_counts", "nominal_alpha_counts"]
@@ -158,7 +158,7 @@ def plan_panel(n_judges: int, n_items: int, n_factors: int, *, expected_hit_rate
     cvr = cvr_critical(N)
     csv = (critical_count(N, p0=0.5), critical_count(N, p0=1 / k))
     std = icvi_standard(N)
-    min_agree = int(math.ceil(std * N - 1e-9))
+    min_agree = next(a for a in range(N + 1) if meets_icvi_standard(a / N, std))
     share = float(stats.binom.sf(csv[0] - 1, N, expected_hit_rate)) if csv[0] is not None else 0.0
 
     rng = np.random.default_rng(seed)

@@ -25,6 +25,8 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg  # noqa: E402
 from matplotlib.figure import Figure  # noqa: E402
 from scipy.cluster.hierarchy import dendrogram  # noqa: E402
 
+from labelstudy.agreement.cvi import meets_icvi_standard  # noqa: E402
+
 __all__ = ["Plot", "round_plots", "confusion_plot", "co_occurrence_plot", "icvi_plot", "judges_plot"]
 
 CMAP = "cividis"
@@ -119,7 +121,8 @@ def icvi_plot(items: pd.DataFrame) -> Plot:
     fig = Figure(layout="constrained", figsize=(7, 1.6 + 0.22 * len(t)))
     ax = fig.add_subplot()
     y = np.arange(len(t))[::-1]
-    below = t["i_cvi"] < t["icvi_standard"] - 1e-12
+    below = pd.Series([not meets_icvi_standard(v, s) for v, s in zip(t["i_cvi"], t["icvi_standard"])],
+                      index=t.index)
     ax.scatter(t["i_cvi"][~below], y[~below], marker="o", s=36, color="#00204d", label="meets the standard")
     ax.scatter(t["i_cvi"][below], y[below], marker="X", s=60, color="#b8a400", edgecolor="black",
                linewidths=0.6, label="below the standard")

@@ -9,6 +9,8 @@ from __future__ import annotations
 import math
 from typing import Any
 
+from labelstudy.agreement import meets_icvi_standard
+
 __all__ = ["item_verdict", "label_verdict"]
 
 
@@ -41,7 +43,7 @@ def item_verdict(row: dict, rules) -> tuple[str, str]:
           f"csv {_num(row.get('csv')):.2f} not significant (p = {_num(row.get('csv_p')):.3f} >= "
           f"{rules['csv_alpha']:g})", placement in ("csv", "both"))
     icvi, std = _num(row.get("i_cvi")), _num(row.get("icvi_standard"))
-    icvi_low = _finite(icvi) and _finite(std) and icvi < std - 1e-12
+    icvi_low = _finite(icvi) and _finite(std) and not meets_icvi_standard(icvi, std)
     check(icvi_low, f"I-CVI {icvi:.2f} < {std:.2f}", relevance in ("icvi", "both"))
     check(row.get("cvr_meets") is False,
           f"CVR {_num(row.get('cvr')):.2f} below its critical value {_num(row.get('cvr_critical')):.2f}",

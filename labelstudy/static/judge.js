@@ -6,7 +6,11 @@
  * - a local copy lives in localStorage ("labelstudy:<link>:<task>:<key>") until the server acknowledges it;
  * - network failures and 5xx are retried with backoff; 409 means the server's answer wins;
  * - on load (and when the tab comes back into view) data-state-url is fetched and reconciled:
- *   server answers win when their revision is >= the local copy's; newer local copies are re-sent.
+ *   server answers win when their revision is >= the local copy's; newer local copies are re-sent;
+ * - each question shows its state as plain text; screen readers hear one settled message per save
+ *   ("Saved. 12 of 40 answered.", or once that an answer is kept on this device) through the single polite
+ *   live region #save-live, never the intermediate "Saving…";
+ * - open sort: a named pile shows its name in every statement's list, and a used pile without a name says so.
  */
 (function () {
   "use strict";
@@ -28,6 +32,8 @@
   var units = {};
   var lastAnswerAt = Date.now();
   var summary = document.getElementById("save-summary");
+  var live = document.getElementById("save-live");
+  var announceTimer = null;
 
   Array.prototype.forEach.call(form.querySelectorAll("[data-key]"), function (el) {
     var key = el.getAttribute("data-key");
@@ -91,6 +97,16 @@
     s.className = "save-state is-" + kind;
     updateSummary();
   }
+  /* One polite message at a time; emptied first so the same words (e.g. re-answering) are spoken again. */
+  function announce(text) {
+    if (!live) { return; }
+    if (announceTimer) { window.clearTimeout(announceTimer); }
+    live.textContent = "";
+    announceTimer = window.setTimeout(function () { announceTimer = null; live.textContent = text; }, 150);
+  }
+  function progressWords(p) {
+    return p ? " " + p.answered + " of " + p.required + " answered." : "";
+  }
   function updateSummary() {
     if (!summary) { return; }
     var waiting = 0;
@@ -115,6 +131,21 @@
     });
     Array.prototype.forEach.call(form.querySelectorAll(".pile-count"), function (s) {
       s.textContent = "(" + (counts[s.getAttribute("data-pile")] || 0) + ")";
+    });
+    Array.prototype.forEach.call(form.querySelectorAll(".pile-hint"), function (h) {
+      var n = h.getAttribute("data-pile"), box = field("v__pile:" + n);
+      var text = (counts[n] && box && !(box.value || "").trim()) ? "This pile needs a name." : "";
+      if (h.textContent !== text) { h.textContent = text; }
+    });
+  }
+  function updatePileNames() {
+    Array.prototype.forEach.call(form.querySelectorAll("select[name^='v__']"), function (sel) {
+      Array.prototype.forEach.call(sel.options, function (o) {
+        if (!o.value) { return; }
+        var box = field("v__pile:" + o.value), name = box ? (box.value || "").trim() : "";
+        var text = "Pile " + o.value + (name ? ": " + name : "");
+        if (o.textContent !== text) { o.textContent = text; }
+      });
     });
   }
 
@@ -170,6 +201,8 @@
         u.acked = { value: b.value, comment: b.comment };
         lsDel(LS + u.key);
         show(u, "Saved", "saved");
+        announce("Saved." + progressWords(b.progress));
+        u.retrying = false;
       } else {
         send(u);
       }
@@ -183,7 +216,9 @@
         setValue(u.key, b.value === undefined ? null : b.value);
         setComment(u.key, b.comment || "");
         updatePileCounts();
+        updatePileNames();
         show(u, "Changed on another device: updated", "conflict");
+        announce("Not saved: this answer was changed on another device, and the newer answer is now shown.");
       } else {
         send(u);
       }
@@ -193,11 +228,17 @@
       u.pending = null;
       if (res.status === 400) { lsDel(LS + u.key); }
       show(u, "Not saved: " + (b.error || ("the server answered " + res.status)), "error");
+      announce("Not saved: " + (b.error || ("the server answered " + res.status)));
     }
   }
 
   function retryLater(u) {
     show(u, "Not saved, retrying", "retrying");
+    if (!u.retrying) {
+      u.retrying = true;
+      announce("Not saved yet: no connection to the server. Your answer is kept on this device and is sent " +
+               "as soon as the connection is back.");
+    }
     if (u.timer) { return; }
     var wait = u.delay;
     u.delay = Math.min(u.delay * 2, MAX_DELAY);
@@ -246,6 +287,7 @@
               setValue(k, s.value);
               setComment(k, s.comment || "");
               show(u, "Changed on another device: updated", "conflict");
+              announce("An answer on this page was changed on another device; the newer answer is shown.");
             } else {
               show(u, "Saved", "saved");
             }
@@ -253,6 +295,7 @@
         });
         resendOtherTasks(server);
         updatePileCounts();
+        updatePileNames();
         updateProgress(b.progress);
       })
       .catch(function () {
@@ -298,6 +341,7 @@
     var t = e.target, k = keyOf(t);
     if (!k || !units[k] || !(t.tagName === "TEXTAREA" || t.type === "text")) { return; }
     var u = units[k];
+    if (k.indexOf("pile:") === 0) { updatePileCounts(); updatePileNames(); }
     if (u.debounce) { window.clearTimeout(u.debounce); }
     u.debounce = window.setTimeout(function () { u.debounce = null; changed(k); }, 900);
   });

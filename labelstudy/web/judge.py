@@ -251,10 +251,17 @@ def _layout(ctx: JudgeContext, view, units: list[dict]) -> dict:
     if kind == "open_sort":
         item_units = [u for u in units if u["facet"] != "pile"]
         piles = [u for u in units if u["facet"] == "pile"]
+        names = {}
         for p in piles:
             n = p["key"].split(":", 1)[1]
             p["number"] = n
             p["count"] = sum(1 for u in item_units if u["value"] == n)
+            if p["value"]:
+                names[n] = p["value"]
+        for u in item_units:       # a named pile shows its name in every statement's list of piles
+            for c in u["choices"]:
+                if c["code"] in names:
+                    c["label"] = f"Pile {c['code']}: {names[c['code']]}"
         return {"items": item_units, "piles": piles}
     if kind in ("relevance", "essentiality"):
         for u in units:
@@ -288,11 +295,15 @@ def _render_task(ctx: JudgeContext, n: int, *, posted: dict | None = None, error
     units = _units(ctx, view, posted, errors)
     answered, required = ctx.progress()
     stale = request.args.get("stale", type=int) if request.method == "GET" else None
+    items = {it.id: it.text for it in ctx.solution.items}
+    error_list = [{"uid": u["uid"], "error": u["error"], "text": _unit_text(ctx, view, u["key"], items)}
+                  for u in units if u["error"]]
+    next_title = T.TASK_LABELS[ctx.views[n].kind].split(":")[0] if n < len(ctx.views) else None
     return render_template(
         "judge/task.html", ctx=ctx, view=view, n=n, n_tasks=len(ctx.views), layout=_layout(ctx, view, units),
         title=T.TASK_LABELS[view.kind].split(":")[0], lead=T.TASK_LABELS[view.kind].split(":", 1)[1].strip(),
         answered=answered, required=required, csrf=judge_csrf_token(ctx.token), message=message,
-        stale=stale, readonly=ctx.submitted, errors=errors or {},
+        stale=stale, readonly=ctx.submitted, errors=errors or {}, error_list=error_list, next_title=next_title,
         missing=len(ctx.missing(view))), status
 
 
@@ -337,11 +348,26 @@ def _review_rows(ctx: JudgeContext) -> list[dict]:
                     f" (group {next(k for k, (fid, _) in enumerate(view.groups, 1) if fid == u.factor_id)})"
             answers.append({"what": what, "answer": _answer_text(view, u.key, a["value"]),
                             "comment": a["comment"]})
-        rows.append({"n": n, "title": T.TASK_LABELS[view.kind].split(":")[0],
+        unnamed = []
+        if view.kind == "open_sort":
+            vals = ctx.values()
+            used = {vals.get((view.task_id, u.key)) for u in view.units if u.facet != "pile"}
+            unnamed = [{"uid": uid_of[u.key], "text": f"Pile {u.key.split(':', 1)[1]}"} for u in view.units
+                       if u.facet == "pile" and u.key.split(":", 1)[1] in used
+                       and vals.get((view.task_id, u.key)) in (None, "")]
+        rows.append({"n": n, "title": T.TASK_LABELS[view.kind].split(":")[0], "unnamed": unnamed,
                      "required": len(view.required_keys), "missing": [
                          {"key": k, "uid": uid_of[k], "text": _missing_text(ctx, view, k, items)} for k in missing],
                      "answers": answers})
     return rows
+
+
+def _unit_text(ctx, view, key, items) -> str:
+    """A short human name of one question (for the error summary at the top of a task page)."""
+    unit = next(u for u in view.units if u.key == key)
+    if unit.facet == "pile":
+        return f"Name of pile {key.split(':', 1)[1]}"
+    return _missing_text(ctx, view, key, items)
 
 
 def _missing_text(ctx, view, key, items) -> str:
