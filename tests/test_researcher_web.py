@@ -436,3 +436,40 @@ def test_carry_over_the_panel_to_a_second_round(researcher, study_id, web_store)
     assert [i["display_name"] for i in web_store.invitations(r2)] == ["Ada", "Ben", "Cara"]
     bad = researcher.post(f"/r/rounds/{r2}/judges/carry-over", {"from_round": "x"}, page=f"/r/rounds/{r2}")
     assert bad.status_code == 400 and "Choose the earlier round" in text(bad)
+
+
+def test_carry_over_refuses_the_same_or_a_later_round(researcher, study_id, web_store):
+    # Found in the browser journey: the server took any round of the study, not only earlier ones.
+    r1 = make_round(web_store, study_id)
+    r2 = make_round(web_store, study_id)
+    researcher.post(f"/r/rounds/{r2}/judges", {"judges": "Ada\nBen"}, page=f"/r/rounds/{r2}")
+    for target, source in ((r2, r2), (r1, r2)):   # its own panel; a later round's panel
+        resp = researcher.post(f"/r/rounds/{target}/judges/carry-over", {"from_round": str(source)},
+                               page=f"/r/rounds/{target}")
+        assert resp.status_code == 400, (target, source)
+        assert "Choose the earlier round of this study" in text(resp)
+    assert web_store.invitations(r1) == []
+
+
+def test_carry_over_twice_says_that_nobody_was_invited(researcher, study_id, web_store):
+    # Found in the browser journey: a second carry-over flashed "0 judges from the earlier round invited".
+    r1 = make_round(web_store, study_id)
+    researcher.post(f"/r/rounds/{r1}/judges", {"judges": "Ada\nBen"}, page=f"/r/rounds/{r1}")
+    r2 = make_round(web_store, study_id)
+    first = researcher.post(f"/r/rounds/{r2}/judges/carry-over", {"from_round": str(r1)},
+                            page=f"/r/rounds/{r2}", follow_redirects=True)
+    assert "2 judges from round 1" in text(first)
+    again = researcher.post(f"/r/rounds/{r2}/judges/carry-over", {"from_round": str(r1)},
+                            page=f"/r/rounds/{r2}", follow_redirects=True)
+    page = text(again)
+    assert "Nobody was invited: every active judge of round 1" in page and "0 judges" not in page
+    assert len(web_store.invitations(r2)) == 2
+
+
+def test_results_page_links_back_to_the_study_and_the_round(researcher, study_id, web_store):
+    # Found in the browser journey: the results page linked only to the round, never to its study.
+    rid = make_round(web_store, study_id)
+    page = text(researcher.client.get(f"/r/rounds/{rid}/results"))
+    crumbs = re.search(r'<nav class="crumbs".*?</nav>', page, re.S).group(0)
+    assert f'href="/r/studies/{study_id}"' in crumbs and "Orchard motives" in crumbs
+    assert f'href="/r/rounds/{rid}"' in crumbs

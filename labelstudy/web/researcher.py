@@ -337,17 +337,29 @@ def add_judges(rid: int):
 def carry_over(rid: int):
     """Invite the panel of an earlier round of the same study to this round (new links for everyone)."""
     store = get_store()
-    _round_or_404(rid)
+    rnd = _round_or_404(rid)
+    earlier = {r["id"]: r for r in store.list_rounds(rnd["study_id"]) if r["number"] < rnd["number"]}
     try:
         source = int(request.form.get("from_round", ""))
-        added = store.carry_over_panel(rid, from_round_id=source)
     except ValueError:
-        return _round_page(rid, error="Choose the earlier round whose judges should be invited.", status=400)
+        source = None
+    if source not in earlier:   # the form offers only earlier rounds of this study; refuse anything else
+        return _round_page(rid, error="No judges were invited. Choose the earlier round of this study whose "
+                                      "judges should be invited.", status=400)
+    try:
+        added = store.carry_over_panel(rid, from_round_id=source)
     except StorageUnavailableError:   # nothing written: the app's 503 page says so
         raise
     except StoreError as exc:
         return _round_page(rid, error=f"No judges were invited: {exc}.", status=400)
-    flash(f"{added} judge{'s' if added != 1 else ''} from the earlier round invited with new links.", "info")
+    src = earlier[source]
+    name = f"round {src['number']}"
+    if src["title"] and src["title"].strip().casefold() != name:
+        name += f" ({src['title'].strip()})"
+    if added == 0:
+        flash(f"Nobody was invited: every active judge of {name} is already on this round's panel.", "info")
+    else:
+        flash(f"{added} judge{'s' if added != 1 else ''} from {name} invited with new links.", "info")
     return redirect(url_for("researcher.round_page", rid=rid) + "#judges")
 
 

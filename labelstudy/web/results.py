@@ -42,9 +42,11 @@ def _scored(rid: int):
 @login_required
 def round_results(rid: int):
     rnd, results, comparison = _scored(rid)
-    back = (url_for("researcher.round_page", rid=rid) if "researcher.round_page" in current_app.view_functions
-            else url_for("researcher.index"))
-    return render_template("results/round.html", exports=list(EXPORTS), back_url=back,
+    views = current_app.view_functions
+    back = url_for("researcher.round_page", rid=rid) if "researcher.round_page" in views else None
+    study_url = (url_for("researcher.study", sid=rnd["study_id"]) if "researcher.study" in views
+                 else url_for("researcher.index"))
+    return render_template("results/round.html", exports=list(EXPORTS), back_url=back, study_url=study_url,
                            **report_context(results, comparison=comparison))
 
 
