@@ -284,3 +284,47 @@ def test_every_task_kind_at_360_and_1280_px(browser, site):
         page.screenshot(path=str(SHOTS / "judge-welcome-360.png"), full_page=True)
     finally:
         ctx.close()
+
+
+# ------------------------------------------------------------------------------- save while saves are in flight
+def test_save_and_continue_while_a_save_is_in_flight_keeps_the_latest_answer(browser, site):
+    """The judge changes an answer twice and presses "Save and continue" while the first change's save has
+    reached the server but not answered yet: the form's answer is the newest and must win, not be reported
+    as changed on another device."""
+    ctx, page = new_page(browser)
+    held = []
+    try:
+        inv = start(page, site, "Judge F")
+        tids = task_ids(site)
+        page.get_by_role("link", name="Task 2").click()
+        js_ready(page)
+        unit = page.locator("fieldset.unit").first
+        key = unit.get_attribute("data-key")
+        radios = unit.locator("input[type=radio]")
+        radios.nth(0).check()
+        expect(unit.locator(".save-state")).to_have_text("Saved")
+
+        def hold(route):            # the save reaches the server and commits; its answer is held back
+            held.append((route, route.fetch()))
+
+        page.route("**/save", hold)
+        radios.nth(1).check()
+        for _ in range(100):
+            if held:
+                break
+            page.wait_for_timeout(50)
+        assert held, "the second save never left the page"
+        latest = radios.nth(2).get_attribute("value")
+        radios.nth(2).check()       # queued behind the save in flight
+        page.get_by_role("button", name="Save and continue").click()
+        page.wait_for_url("**/task/3*")
+        assert "stale" not in page.url
+        answer = stored(site, inv["judge_id"])[(tids[1], key)]
+        assert answer["value"] == latest and answer["revision"] == 3
+    finally:
+        for route, response in held:
+            try:
+                route.fulfill(response=response)
+            except Exception:       # the page has moved on; nothing waits for this answer any more
+                pass
+        ctx.close()

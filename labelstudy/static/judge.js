@@ -361,7 +361,15 @@
     if (document.visibilityState === "visible") { reconcile(false); }
   });
   var submitting = false;   /* the plain form post carries every value itself */
-  form.addEventListener("submit", function () { submitting = true; });
+  form.addEventListener("submit", function () {
+    submitting = true;
+    /* An answer whose save is still on its way was given after the revision this page was built with:
+       post it as newer than that save, so the form's (latest) answer wins instead of looking stale. */
+    Object.keys(units).forEach(function (k) {
+      var u = units[k], f = field("rev__" + k);
+      if (u.pending && f) { f.value = String(Math.max(u.rev, u.pending.revision)); }
+    });
+  });
   window.addEventListener("beforeunload", function (e) {
     var waiting = !submitting && Object.keys(units).some(function (k) { return units[k].pending; });
     if (waiting) { e.preventDefault(); e.returnValue = ""; }
