@@ -473,3 +473,20 @@ def test_results_page_links_back_to_the_study_and_the_round(researcher, study_id
     crumbs = re.search(r'<nav class="crumbs".*?</nav>', page, re.S).group(0)
     assert f'href="/r/studies/{study_id}"' in crumbs and "Orchard motives" in crumbs
     assert f'href="/r/rounds/{rid}"' in crumbs
+
+
+def test_a_second_round_starts_from_the_first_rounds_design(researcher, study_id, web_store):
+    web_store.create_round(study_id, tasks=[("relevance", {}), ("label_match", {"show": "name",
+                                                                                "none_option": False})],
+                           instructions="Rate and sort, round one.", consent="Agreed once.", seed=5)
+    page = text(researcher.client.get(f"/r/studies/{study_id}/rounds/new"))
+    assert "repeats the design of round 1" in page
+    assert "Rate and sort, round one." in page and "Agreed once." in page
+    assert re.search(r'name="task_relevance"[^>]*checked', page)
+    assert re.search(r'name="task_label_match"[^>]*checked', page)
+    assert not re.search(r'name="task_open_sort"[^>]*checked', page)
+    assert re.search(r'name="order_relevance"[^>]*value="1"', page)
+    assert re.search(r'name="order_label_match"[^>]*value="2"', page)
+    assert re.search(r'value="name"[^>]*checked', page)
+    fresh = text(researcher.client.get(f"/r/studies/{study_id}/rounds/new?fresh=1"))
+    assert "repeats the design" not in fresh and "Rate and sort, round one." not in fresh

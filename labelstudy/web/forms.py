@@ -145,6 +145,32 @@ def round_form_defaults(factors: Sequence[dict], number: int) -> dict:
     return values
 
 
+def round_form_from(previous: dict, tasks: Sequence[dict], factors: Sequence[dict], number: int) -> dict:
+    """Field values that repeat an earlier round's design (tasks, order, settings, texts) for round
+    ``number``, so a second round after revisions asks the same questions and can be compared."""
+    values = round_form_defaults(factors, number)
+    for kind in TASK_ORDER:
+        values.pop(f"task_{kind}", None)
+    for pos, t in enumerate(tasks, start=1):
+        kind, cfg = t["kind"], t.get("config") or {}
+        values[f"task_{kind}"] = "on"
+        values[f"order_{kind}"] = str(pos)
+        if kind == "label_match":
+            values["show"] = cfg.get("show", values["show"])
+            if cfg.get("none_option", True):
+                values["none_option"] = "on"
+            else:
+                values.pop("none_option", None)
+        elif kind == "open_sort":
+            values["max_piles"] = str(cfg.get("max_piles", values["max_piles"]))
+        elif kind == "naming":
+            for fid, names in (cfg.get("candidates") or {}).items():
+                values[f"candidates_{fid}"] = "\n".join(names)
+    values["instructions"] = previous.get("instructions") or values["instructions"]
+    values["consent"] = previous.get("consent") or values["consent"]
+    return values
+
+
 def _text(form: Mapping[str, str], name: str, label: str, limit: int) -> str:
     value = (form.get(name) or "").replace("\r\n", "\n").strip()
     if len(value) > limit:

@@ -22,7 +22,7 @@ from labelstudy.tasks import DEFAULT_CONFIG, SHOW_CHOICES, TASK_LABELS, build_vi
 from labelstudy.web import get_store
 from labelstudy.web.auth import login_required
 from labelstudy.web.forms import (TASK_ORDER, missing_definitions, parse_judge_lines, parse_panel_size,
-                                  parse_round_form, round_form_defaults)
+                                  parse_round_form, round_form_defaults, round_form_from)
 
 __all__ = ["bp", "plan_messages", "results_endpoint_url"]
 
@@ -254,9 +254,13 @@ def new_round(sid: int):
     store = get_store()
     study_row = _study_or_404(sid)
     factors = store.factors(sid)
-    number = len(store.list_rounds(sid)) + 1
+    rounds = store.list_rounds(sid)
+    number = len(rounds) + 1
     if request.method == "GET":
-        values, error, status = round_form_defaults(factors, number), None, 200
+        previous = rounds[-1] if rounds and request.args.get("fresh") != "1" else None
+        values = (round_form_from(previous, store.tasks(previous["id"]), factors, number) if previous
+                  else round_form_defaults(factors, number))
+        error, status = None, 200
     else:
         values = {k: v for k, v in request.form.items() if k != "csrf_token"}
         try:
@@ -270,7 +274,7 @@ def new_round(sid: int):
             flash("The round was created as a draft. Add judges, then open it.", "info")
             return redirect(url_for("researcher.round_page", rid=rid))
     return render_template("researcher/new_round.html", study=study_row, factors=factors, values=values,
-                           error=error, task_order=TASK_ORDER, show_choices=SHOW_CHOICES,
+                           error=error, previous_round=rounds[-1]["number"] if rounds else None, task_order=TASK_ORDER, show_choices=SHOW_CHOICES,
                            defaults=DEFAULT_CONFIG,
                            undefined=[f["name"] for f in factors if not f["definition"].strip()]), status
 
