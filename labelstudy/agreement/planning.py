@@ -201,7 +201,8 @@ def plan_panel(n_judges: int, n_items: int, n_factors: int, *, expected_hit_rate
         msgs.append(f"Lawshe's CVR needs {cvr[0]} of {N} judges rating an item essential (CVR >= "
                     f"{cvr[1]:.3f}) to be significant at .05.")
     if np.isfinite(width):
-        msgs.append(f"At that hit rate nominal alpha is about {exp_alpha:.2f}, and its 95% interval over "
-                    f"{int(n_items)} items will be about {width:.2f} wide (simulated).")
+        msgs.append(f"If judges place {expected_hit_rate:.0%} of the items on their intended factor, nominal "
+                    f"alpha is about {exp_alpha:.2f}, and its 95% interval over {int(n_items)} items will be "
+                    f"about {width:.2f} wide (simulated).")
     return PanelPlan(N, int(n_items), int(n_factors), float(expected_hit_rate), cvr, csv, std, min_agree,
                      share, exp_alpha, width, int(n_sim), int(n_boot), tuple(msgs), "; ".join(notes))
