@@ -8,50 +8,26 @@ kind at 360 and 1280 px (artifacts/screenshots/).
 
 from __future__ import annotations
 
-import os
-import threading
-from pathlib import Path
 
 import pytest
 
 from tests.helpers_judge import ALL_KINDS, PASSWORD, build_round, make_app
+from tests.helpers_browser import (BROWSER_MARKS, SHOTS, WAIT, browser, expect, serve,  # noqa: F401
+                                   sync_api)
 
-CHROMIUM = "/usr/bin/chromium"
-pytestmark = [pytest.mark.browser,
-              pytest.mark.skipif(not os.path.exists(CHROMIUM),
-                                 reason=f"Debian's chromium is not installed at {CHROMIUM} (apt-get install chromium)")]
+pytestmark = BROWSER_MARKS
 
-sync_api = pytest.importorskip("playwright.sync_api", reason="playwright is not installed")
-expect = sync_api.expect
-
-SHOTS = Path(__file__).resolve().parent.parent / "artifacts" / "screenshots"
-WAIT = 8000   # ms: the bound on every wait
-ARGS = ["--headless=new", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-        "--disable-background-networking", "--disable-component-update", "--disable-sync"]
 
 
 @pytest.fixture(scope="module")
 def site(tmp_path_factory):
-    import waitress
 
     b = build_round(tmp_path_factory.mktemp("judge-browser"), tasks=ALL_KINDS, judges=6)
     app = make_app(b.path)
-    server = waitress.create_server(app, host="127.0.0.1", port=0, threads=4)
-    thread = threading.Thread(target=server.run, daemon=True)
-    thread.start()
-    base = f"http://127.0.0.1:{server.effective_port}"
     invs = {inv["display_name"]: inv for inv in b.store.invitations(b.round_id)}
-    yield {"base": base, "built": b, "invs": invs}
-    server.close()
+    with serve(app) as base:
+        yield {"base": base, "built": b, "invs": invs}
     b.store.close()
-
-
-@pytest.fixture(scope="module")
-def browser():
-    with sync_api.sync_playwright() as p:
-        br = p.chromium.launch(executable_path=CHROMIUM, args=ARGS, timeout=30000)
-        yield br
-        br.close()
 
 
 def new_page(browser, *, width=1280, height=900, js=True):

@@ -12,27 +12,17 @@ artifacts/screenshots/researcher-*.png.
 from __future__ import annotations
 
 import json
-import os
-import threading
 from pathlib import Path
 
 import pytest
+from tests.helpers_browser import (BROWSER_MARKS, SHOTS, WAIT, browser, expect, serve,  # noqa: F401
+                                   sync_api)
 
-CHROMIUM = "/usr/bin/chromium"
-pytestmark = [pytest.mark.browser,
-              pytest.mark.skipif(not os.path.exists(CHROMIUM),
-                                 reason=f"Debian's chromium is not installed at {CHROMIUM} (apt-get install chromium)")]
-
-sync_api = pytest.importorskip("playwright.sync_api", reason="playwright is not installed")
-expect = sync_api.expect
+pytestmark = BROWSER_MARKS
 
 ROOT = Path(__file__).resolve().parent.parent
 SAMPLES = ROOT / "sample_studies" / "community_orchards" / "solution"
-SHOTS = ROOT / "artifacts" / "screenshots"
 PASSWORD = "correct horse battery"
-WAIT = 8000   # ms: the bound on every wait
-ARGS = ["--headless=new", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-        "--disable-background-networking", "--disable-component-update", "--disable-sync"]
 ALL_TASKS = ("open_sort", "label_match", "relevance", "essentiality", "definition_fit", "naming")
 EXPORT_TYPES = {"report.html": "text/html", "results.xlsx": "application/vnd.openxmlformats",
                 "answers.csv": "text/csv", "answers-excel.csv": "text/csv", "results.json": "application/json",
@@ -41,7 +31,6 @@ EXPORT_TYPES = {"report.html": "text/html", "results.xlsx": "application/vnd.ope
 
 @pytest.fixture(scope="module")
 def site(tmp_path_factory):
-    import waitress
 
     from labelstudy.project import init_project
     from labelstudy.web import create_app
@@ -49,19 +38,8 @@ def site(tmp_path_factory):
     path = tmp_path_factory.mktemp("researcher-browser") / "p"
     init_project(path, password=PASSWORD)
     app = create_app(path, {"TESTING": True})
-    server = waitress.create_server(app, host="127.0.0.1", port=0, threads=4)
-    thread = threading.Thread(target=server.run, daemon=True)
-    thread.start()
-    yield {"base": f"http://127.0.0.1:{server.effective_port}", "app": app}
-    server.close()
-
-
-@pytest.fixture(scope="module")
-def browser():
-    with sync_api.sync_playwright() as p:
-        br = p.chromium.launch(executable_path=CHROMIUM, args=ARGS, timeout=30000)
-        yield br
-        br.close()
+    with serve(app) as base:
+        yield {"base": base, "app": app}
 
 
 def context(browser, *, width=1280, js=True):

@@ -10,7 +10,6 @@ unset and no link points at ``javascript:``.
 
 from __future__ import annotations
 
-import os
 import threading
 
 import pytest
@@ -19,15 +18,11 @@ from helpers_reliability import PASSWORD
 from labelstudy.project import init_project
 from labelstudy.solution import Factor, Item, Solution
 from labelstudy.web import NOT_SAVED_RETRYING, create_app
+from tests.helpers_browser import (BROWSER_MARKS, SHOTS, WAIT, browser, expect, serve,  # noqa: F401
+                                   sync_api)
 
-CHROMIUM = "/usr/bin/chromium"
-pytestmark = [pytest.mark.browser,
-              pytest.mark.skipif(not os.path.exists(CHROMIUM), reason=f"Debian's chromium is not at {CHROMIUM}")]
-sync_api = pytest.importorskip("playwright.sync_api", reason="playwright is not installed")
+pytestmark = BROWSER_MARKS
 
-ARGS = ["--headless=new", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
-        "--disable-background-networking", "--disable-component-update", "--disable-sync"]
-WAIT = 8000
 
 PAYLOADS = [
     "<script>window.__xss='script';alert(1)</script>",
@@ -46,7 +41,6 @@ def _p(k: int) -> str:
 
 @pytest.fixture(scope="module")
 def site(tmp_path_factory):
-    import waitress
 
     path = tmp_path_factory.mktemp("xss") / "p"
     project, _ = init_project(path, password=PASSWORD)
@@ -86,20 +80,9 @@ def site(tmp_path_factory):
         conn.execute(f"PRAGMA query_only = {1 if read_only.is_set() else 0}")
         return conn
     app_store.connect = connect
-    server = waitress.create_server(app, host="127.0.0.1", port=0, threads=4)
-    thread = threading.Thread(target=server.run, daemon=True)
-    thread.start()
-    yield {"base": f"http://127.0.0.1:{server.effective_port}", "sid": sid, "rid": rid, "hostile": hostile,
-           "plain": plain, "read_only": read_only, "app": app, "path": path, "judge_ids": (jid, plain["judge_id"])}
-    server.close()
-
-
-@pytest.fixture(scope="module")
-def browser():
-    with sync_api.sync_playwright() as p:
-        br = p.chromium.launch(executable_path=CHROMIUM, args=ARGS, timeout=30000)
-        yield br
-        br.close()
+    with serve(app) as base:
+        yield {"base": base, "sid": sid, "rid": rid, "hostile": hostile, "plain": plain,
+               "read_only": read_only, "app": app, "path": path, "judge_ids": (jid, plain["judge_id"])}
 
 
 class Watch:
