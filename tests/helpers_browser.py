@@ -38,12 +38,23 @@ def serve(app, *, threads: int = 4) -> Iterator[str]:
     import waitress
 
     server = waitress.create_server(app, host="127.0.0.1", port=0, threads=threads)
-    thread = threading.Thread(target=server.run, daemon=True)
+    stopping = threading.Event()
+
+    def run() -> None:
+        try:
+            server.run()
+        except (OSError, ValueError):   # the listening socket closed under select() while stopping
+            if not stopping.is_set():
+                raise
+
+    thread = threading.Thread(target=run, daemon=True)
     thread.start()
     try:
         yield f"http://127.0.0.1:{server.effective_port}"
     finally:
+        stopping.set()
         server.close()
+        thread.join(timeout=10)
 
 
 @pytest.fixture(scope="module")
