@@ -257,3 +257,30 @@ def test_researcher_journey(browser, site, tmp_path):
     expect(page.locator("#rounds li")).to_have_count(2)
     expect(page.locator("#rounds").get_by_role("link", name="results")).to_have_count(2)
     ctx.close()
+
+
+def test_the_plan_follows_the_judges_being_typed_in(browser, site):
+    """While the researcher enters the panel, the round page says what that panel size can establish."""
+    from labelstudy.agreement import plan_panel
+    from labelstudy.solution import load_solution
+
+    store = site["app"].extensions["labelstudy_store"]
+    solution = load_solution(SAMPLES / "orchard_solution.xlsx")
+    sid = store.create_study("Panel planning", solution)
+    rid = store.create_round(sid, tasks=[("label_match", {})], seed=17)
+    store.add_judges(rid, [("Ada", "", ""), ("Ben", "", "")])
+    ctx = context(browser)
+    page = ctx.new_page()
+    try:
+        page.goto(f"{site['base']}/r/login")
+        page.fill("#password", PASSWORD)
+        page.get_by_role("button", name="Log in").click()
+        page.goto(f"{site['base']}/r/rounds/{rid}")
+        expect(page.locator("#plan-for")).to_contain_text("For the 2 active judges")
+        page.fill("#judges-text", "Cara\nDev\n\nEli\nFay")
+        expect(page.locator("#plan-for")).to_contain_text("For a panel of 6 judges")
+        expected = plan_panel(6, len(solution.items), len(solution.factors), n_sim=200, seed=17).messages
+        expect(page.locator("#plan-messages li").first).to_have_text(expected[0])
+        assert page.locator("#plan-messages li").all_inner_texts() == list(expected)
+    finally:
+        ctx.close()

@@ -490,3 +490,12 @@ def test_a_second_round_starts_from_the_first_rounds_design(researcher, study_id
     assert re.search(r'value="name"[^>]*checked', page)
     fresh = text(researcher.client.get(f"/r/studies/{study_id}/rounds/new?fresh=1"))
     assert "repeats the design" not in fresh and "Rate and sort, round one." not in fresh
+
+
+def test_plan_as_json_for_the_round_page(researcher, study_id, web_store):
+    rid = make_round(web_store, study_id)
+    r = researcher.client.get(f"/r/rounds/{rid}/plan?judges=7&format=json")
+    assert r.status_code == 200 and r.json["ok"] and r.json["judges"] == 7
+    assert r.json["messages"] and "With 7 judges" in r.json["messages"][0]
+    bad = researcher.client.get(f"/r/rounds/{rid}/plan?judges=lots&format=json")
+    assert bad.status_code == 400 and bad.json["ok"] is False and bad.json["error"]

@@ -12,8 +12,8 @@ import json
 import threading
 from typing import Any
 
-from flask import (Blueprint, Response, abort, current_app, flash, redirect, render_template, request,
-                   url_for)
+from flask import (Blueprint, Response, abort, current_app, flash, jsonify, redirect, render_template,
+                   request, url_for)
 
 from labelstudy.errors import (FormInputError, LabelstudyError, NotFoundError, SolutionImportError,
                                StaleRevisionError, StateError, StorageUnavailableError, StoreError)
@@ -459,6 +459,9 @@ def plan(rid: int):
             error = f"{exc}."
     if n is not None:
         messages = plan_messages(n, len(solution.items), len(solution.factors), rnd["seed"])
+    if request.args.get("format") == "json":   # the round page updates its plan while judges are typed in
+        return jsonify(ok=error is None, judges=n if error is None else None, messages=list(messages),
+                       error=error), (400 if error else 200)
     return render_template("researcher/plan.html", rnd=rnd, study=store.get_study(rnd["study_id"]),
                            n=n if n is not None else raw, n_active=active, messages=messages, error=error,
                            n_items=len(solution.items), n_factors=len(solution.factors)), (400 if error else 200)
