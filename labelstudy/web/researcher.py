@@ -206,19 +206,25 @@ def edit_factor(sid: int, fid: str):
         return _study_page(sid, error={"kind": "factor", "id": fid, "yours": yours, "message":
                                        f"Factor {fid}: the name may have at most 120 characters and the "
                                        "definition at most 5000."}, status=400)
+    return _save_edit(sid, "factor", fid, current, yours, lambda version: store.update_factor(
+        sid, fid, name=name, definition=definition, expected_version=version))
+
+
+def _save_edit(sid: int, kind: str, key: str, current: dict, yours: dict, save):
+    """Run one versioned edit; a stale version re-renders the study page with both texts (409), a refused
+    value with its message (400); storage failures go to the app's 503 page. Nothing half-written."""
     try:
-        store.update_factor(sid, fid, name=name, definition=definition,
-                            expected_version=_expected_version())
+        save(_expected_version())
     except StaleRevisionError:
-        return _study_page(sid, conflict={"kind": "factor", "id": fid, "current": current, "yours": yours},
+        return _study_page(sid, conflict={"kind": kind, "id": key, "current": current, "yours": yours},
                            status=409)
     except StorageUnavailableError:   # nothing written: the app's 503 page says so
         raise
     except StoreError as exc:
-        return _study_page(sid, error={"kind": "factor", "id": fid, "yours": yours, "message": str(exc)},
+        return _study_page(sid, error={"kind": kind, "id": key, "yours": yours, "message": str(exc)},
                            status=400)
-    flash(f"Factor {fid} saved.", "info")
-    return redirect(url_for("researcher.study", sid=sid) + f"#factor-{fid}")
+    flash(f"{kind.capitalize()} {key} saved.", "info")
+    return redirect(url_for("researcher.study", sid=sid) + f"#{kind}-{key}")
 
 
 @bp.post("/studies/<int:sid>/items/<path:iid>")
@@ -234,18 +240,8 @@ def edit_item(sid: int, iid: str):
         return _study_page(sid, error={"kind": "item", "id": iid, "yours": yours,
                                        "message": f"Item {iid}: the text may have at most 2000 characters."},
                            status=400)
-    try:
-        store.update_item(sid, iid, text=text, expected_version=_expected_version())
-    except StaleRevisionError:
-        return _study_page(sid, conflict={"kind": "item", "id": iid, "current": current, "yours": yours},
-                           status=409)
-    except StorageUnavailableError:   # nothing written: the app's 503 page says so
-        raise
-    except StoreError as exc:
-        return _study_page(sid, error={"kind": "item", "id": iid, "yours": yours, "message": str(exc)},
-                           status=400)
-    flash(f"Item {iid} saved.", "info")
-    return redirect(url_for("researcher.study", sid=sid) + f"#item-{iid}")
+    return _save_edit(sid, "item", iid, current, yours,
+                      lambda version: store.update_item(sid, iid, text=text, expected_version=version))
 
 
 # ---------------------------------------------------------------------------------------------- rounds
