@@ -14,12 +14,7 @@ from labelstudy.agreement.alpha import (LEVELS, alpha_replicates, coincidences, 
 
 NAN = np.nan
 # Krippendorff (2011), "Computing Krippendorff's Alpha-Reliability": 4 observers x 12 units.
-K2011 = np.array([
-    [1, 2, 3, 3, 2, 1, 4, 1, 2, NAN, NAN, NAN],
-    [1, 2, 3, 3, 2, 2, 4, 1, 2, 5, NAN, 3],
-    [NAN, 3, 3, 3, 2, 3, 4, 2, 2, 5, 1, NAN],
-    [1, 2, 3, 3, 2, 4, 4, 1, 2, 5, 1, NAN],
-])
+from tests.helpers_published import K2011  # noqa: E402
 
 
 def random_design(rng, max_judges=7, max_items=30, missing=None):

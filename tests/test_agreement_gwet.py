@@ -14,13 +14,8 @@ from labelstudy.agreement.gwet import (GWET_WEIGHTS, brennan_prediger, gwet_ac1,
 from labelstudy.agreement.kappa import fleiss_kappa
 
 NAN = np.nan
-# Krippendorff (2011) 4 observers x 12 units (judges x items)
-K2011 = np.array([
-    [1, 2, 3, 3, 2, 1, 4, 1, 2, NAN, NAN, NAN],
-    [1, 2, 3, 3, 2, 2, 4, 1, 2, 5, NAN, 3],
-    [NAN, 3, 3, 3, 2, 3, 4, 2, 2, 5, 1, NAN],
-    [1, 2, 3, 3, 2, 4, 4, 1, 2, 5, 1, NAN],
-])
+# Krippendorff (2011), "Computing Krippendorff's Alpha-Reliability": 4 observers x 12 units.
+from tests.helpers_published import K2011  # noqa: E402
 
 
 def irrcac(values, domain, weights="identity"):
