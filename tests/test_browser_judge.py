@@ -22,7 +22,7 @@ pytestmark = BROWSER_MARKS
 @pytest.fixture(scope="module")
 def site(tmp_path_factory):
 
-    b = build_round(tmp_path_factory.mktemp("judge-browser"), tasks=ALL_KINDS, judges=6)
+    b = build_round(tmp_path_factory.mktemp("judge-browser"), tasks=ALL_KINDS, judges=7)
     app = make_app(b.path)
     invs = {inv["display_name"]: inv for inv in b.store.invitations(b.round_id)}
     with serve(app) as base:
@@ -303,4 +303,29 @@ def test_save_and_continue_while_a_save_is_in_flight_keeps_the_latest_answer(bro
                 route.fulfill(response=response)
             except Exception:       # the page has moved on; nothing waits for this answer any more
                 pass
+        ctx.close()
+
+
+# ------------------------------------------------------------------------- no layout jump under the pointer
+def test_a_click_on_save_and_continue_right_after_typing_is_not_lost(browser, site):
+    """Pressing the button blurs the text field being typed in; the saved state that appears then must not
+    move the button away from under the pointer between mouse down and mouse up."""
+    ctx, page = new_page(browser, width=360, height=740)
+    try:
+        start(page, site, "Judge G")
+        js_ready(page)
+        for sel in page.locator("select[name^='v__']").all():
+            sel.select_option("1")
+        box = page.locator("input[name='v__pile:1']")
+        box.fill("Leftovers")                     # focus stays in the field, as after typing
+        button = page.get_by_role("button", name="Save and continue")
+        button.scroll_into_view_if_needed()
+        before = button.bounding_box()
+        page.mouse.move(before["x"] + before["width"] / 2, before["y"] + before["height"] / 2)
+        page.mouse.down()                         # the field loses focus here
+        after = button.bounding_box()
+        page.mouse.up()
+        assert abs(after["y"] - before["y"]) < 1, (before, after)
+        page.wait_for_url("**/task/2")
+    finally:
         ctx.close()
